@@ -1,0 +1,110 @@
+//! One-dimensional root finding for the inverse problems (density → w,
+//! % vol → w): a safeguarded Newton iteration inside a bracket, so it is as
+//! fast as Newton where Newton behaves and never leaves the bracket or fails
+//! silently where it does not.
+
+use super::error::{finite, Error, Result};
+use super::model::Mixture;
+
+/// Tolerance on w at which the solves stop.
+pub const W_TOL: f64 = 1e-12;
+const MAX_ITER: usize = 100;
+
+/// Solves `f(w) = target` for `w` in `[lo, hi]`, where `f` returns the value
+/// and derivative and is increasing. `target` must lie between `f(lo)` and
+/// `f(hi)` (the caller checks reachability and reports it).
+pub fn solve_increasing(
+    f: impl Fn(f64) -> (f64, f64),
+    target: f64,
+    lo: f64,
+    hi: f64,
+    guess: f64,
+    what: &'static str,
+) -> Result<f64> {
+    let (mut a, mut b) = (lo, hi);
+    let (fa, _) = f(a);
+    let (fb, _) = f(b);
+    if target <= fa {
+        return Ok(a);
+    }
+    if target >= fb {
+        return Ok(b);
+    }
+    let mut w = if guess > a && guess < b {
+        guess
+    } else {
+        0.5 * (a + b)
+    };
+    let mut last = f64::INFINITY;
+    for _ in 0..MAX_ITER {
+        let (fw, dfw) = f(w);
+        let g = fw - target;
+        if g == 0.0 {
+            return Ok(w);
+        }
+        if g < 0.0 {
+            a = w;
+        } else {
+            b = w;
+        }
+        let newton = w - g / dfw;
+        let next = if dfw > 0.0 && newton > a && newton < b {
+            newton
+        } else {
+            0.5 * (a + b)
+        };
+        let step = (next - w).abs();
+        w = next;
+        if step < W_TOL || (b - a) < W_TOL {
+            return Ok(w);
+        }
+        // A Newton step that did not halve the previous one: bisect instead
+        // next time round by shrinking towards the midpoint.
+        if step > 0.5 * last {
+            w = 0.5 * (a + b);
+        }
+        last = step;
+    }
+    let (fw, _) = f(w);
+    Err(Error::NoConvergence {
+        what,
+        iterations: MAX_ITER,
+        residual: fw - target,
+    })
+}
+
+/// Mass fraction of component 1 from a density `rho` (kg/m³) measured at
+/// `t` °C. Density decreases with w wherever the model has been checked (see
+/// the monotonicity test); the solve is bracketed regardless.
+pub fn w_from_density<M: Mixture + ?Sized>(m: &M, rho: f64, t: f64) -> Result<f64> {
+    let rho = finite("density", rho)?;
+    let t = m.check_t(t)?;
+    let v = m.validity();
+    let r_lo_w = m.rho(v.w_min, t);
+    let r_hi_w = m.rho(v.w_max, t);
+    let (min, max) = (r_lo_w.min(r_hi_w), r_lo_w.max(r_hi_w));
+    // Allow a rounding margin at the ends so that ρ(pure) itself round-trips.
+    let margin = 1e-9 * max;
+    if rho < min - margin || rho > max + margin {
+        return Err(Error::Unreachable {
+            model: m.name().to_string(),
+            density: rho,
+            t,
+            min,
+            max,
+        });
+    }
+    let f = |w: f64| {
+        let (r, dr) = m.rho_dw(w, t);
+        (-r, -dr)
+    };
+    let guess = m.guess_w_from_density(rho, t).unwrap_or_else(|| {
+        let span = r_hi_w - r_lo_w;
+        if span == 0.0 {
+            0.5 * (v.w_min + v.w_max)
+        } else {
+            v.w_min + (rho - r_lo_w) / span * (v.w_max - v.w_min)
+        }
+    });
+    solve_increasing(f, -rho, v.w_min, v.w_max, guess, "density solve")
+}
