@@ -2,7 +2,9 @@
 //! registered in it. Front ends (the command line, the REPL) talk to Lua only
 //! through [`Host`].
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::AtomicBool;
+use std::sync::Arc;
 use std::time::Duration;
 
 use mlua::{Lua, LuaOptions, MultiValue, StdLib};
@@ -65,6 +67,7 @@ pub enum Completeness {
 pub struct Host {
     lua: Lua,
     options: HostOptions,
+    interrupt: Arc<AtomicBool>,
 }
 
 impl Host {
@@ -77,7 +80,11 @@ impl Host {
         for name in ["dofile", "loadfile", "load", "collectgarbage"] {
             g.set(name, mlua::Value::Nil)?;
         }
-        Ok(Host { lua, options })
+        Ok(Host {
+            lua,
+            options,
+            interrupt: Arc::new(AtomicBool::new(false)),
+        })
     }
 
     /// The options this host was made with.
@@ -133,5 +140,62 @@ impl Host {
             .map(|v| format!("{v:?}"))
             .collect::<Vec<_>>()
             .join("\n")
+    }
+
+    /// A flag that, once set (e.g. by a Ctrl-C handler), stops the running
+    /// evaluation with an "interrupted" error; the host clears it before
+    /// each evaluation.
+    pub fn interrupt_handle(&self) -> Arc<AtomicBool> {
+        self.interrupt.clone()
+    }
+
+    /// Runs a script file; `args` become the global table `arg`
+    /// (`arg[0]` the script path, `arg[1..]` the arguments).
+    pub fn run_file(&self, path: &Path, args: &[String]) -> Result<(), HostError> {
+        let source = std::fs::read_to_string(path).map_err(|e| HostError {
+            message: format!("cannot read script {}: {e}", path.display()),
+            traceback: None,
+        })?;
+        let arg = self.lua.create_table()?;
+        arg.set(0, path.display().to_string())?;
+        for (i, a) in args.iter().enumerate() {
+            arg.set(i + 1, a.as_str())?;
+        }
+        self.lua.globals().set("arg", arg)?;
+        let name = format!("@{}", path.display());
+        self.lua
+            .load(&source)
+            .set_name(name)
+            .set_mode(mlua::chunk::ChunkMode::Text)
+            .exec()?;
+        Ok(())
+    }
+
+    /// Completion candidates for the identifier-ish word ending at byte
+    /// `pos` of `line`: globals, fields after `name.`, methods after `obj:`.
+    /// Returns (start of the word being completed, candidates).
+    pub fn completions(&self, line: &str, pos: usize) -> (usize, Vec<String>) {
+        let head = &line[..pos.min(line.len())];
+        let start = head
+            .rfind(|c: char| !(c.is_alphanumeric() || c == '_'))
+            .map(|i| i + 1)
+            .unwrap_or(0);
+        let word = &head[start..];
+        let mut out: Vec<String> = self
+            .lua
+            .globals()
+            .pairs::<String, mlua::Value>()
+            .filter_map(|p| p.ok().map(|(k, _)| k))
+            .filter(|k| k.starts_with(word))
+            .collect();
+        out.sort();
+        (start, out)
+    }
+
+    /// Drops all user state: a fresh state with the same options.
+    pub fn reset(&mut self) -> Result<(), HostError> {
+        let fresh = Host::new(self.options.clone())?;
+        self.lua = fresh.lua;
+        Ok(())
     }
 }
