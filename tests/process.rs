@@ -689,6 +689,15 @@ fn plan_infeasible_targets_say_why() {
         msg.contains("weaker than every lot and no water is allowed"),
         "{msg}"
     );
+    let dry = PlanWater {
+        limit: Some(Amount::Mass { kg: 0.0 }),
+        ..PlanWater::default()
+    };
+    let msg = why(&lots, Some(&dry), target(30.0, 100.0));
+    assert!(
+        msg.contains("the water's limit is zero") && msg.contains("lot 1"),
+        "{msg}"
+    );
     let limited = [lots[0].with_limit(Amount::Volume {
         litres: 10.0,
         t: 20.0,

@@ -54,7 +54,12 @@ pub enum Error {
 
     /// An error in one item of a list (e.g. `lot 3`), with the item named.
     #[error("{context}: {source}")]
-    Context { context: String, source: Box<Error> },
+    Context {
+        /// The item, e.g. `lot 3`.
+        context: String,
+        /// What went wrong with it.
+        source: Box<Error>,
+    },
 }
 
 impl Error {

@@ -85,13 +85,28 @@ impl Weighing {
 /// How much liquid a lot holds.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Amount {
-    /// A volume in L gauged at `t` °C.
-    Volume { litres: f64, t: f64 },
-    /// A true mass (in vacuum) in kg.
-    Mass { kg: f64 },
-    /// A balance reading in kg, weighed in air with the liquid at `t` °C
-    /// (its density at `t` enters the buoyancy correction).
-    WeighedInAir { kg: f64, t: f64, weighing: Weighing },
+    /// A gauged volume.
+    Volume {
+        /// Volume, L, at `t`.
+        litres: f64,
+        /// Temperature of the liquid when gauged, °C.
+        t: f64,
+    },
+    /// A true mass (in vacuum).
+    Mass {
+        /// Mass, kg.
+        kg: f64,
+    },
+    /// A mass weighed in air; the liquid's density at `t` enters the
+    /// buoyancy correction.
+    WeighedInAir {
+        /// Balance reading, kg of reference weights.
+        kg: f64,
+        /// Temperature of the liquid when weighed, °C.
+        t: f64,
+        /// Air and reference-weight densities.
+        weighing: Weighing,
+    },
 }
 
 impl Amount {
@@ -177,12 +192,13 @@ pub(crate) fn volume_20<M: Mixture + ?Sized>(m: &M, mass: f64, w: f64) -> Result
     volume_at(m, mass, w, T_REF_C)
 }
 
-/// "43.0000 % vol (w = 0.356...)" when % vol is defined for the model,
-/// else the mass fraction alone: for messages.
+/// "43.000000 % vol (w = 0.35612345)" when % vol is defined for the model,
+/// else the mass fraction alone: for messages. Six decimals, so that a
+/// target just past a limit does not print the same as the limit.
 pub(crate) fn describe<M: Mixture + ?Sized>(m: &M, w: f64) -> String {
     match composition::abv(m, w, T_REF_C) {
-        Ok(abv) => format!("{abv:.4} % vol (w = {w:.6})"),
-        Err(_) => format!("w = {w:.6}"),
+        Ok(abv) => format!("{abv:.6} % vol (w = {w:.8})"),
+        Err(_) => format!("w = {w:.8}"),
     }
 }
 

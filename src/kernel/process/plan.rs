@@ -203,7 +203,8 @@ pub fn plan_blend<M: Mixture + ?Sized>(
         sources.push(s);
     }
 
-    check_feasible(m, &sources, total, w_t)?;
+    let water_cap = water.and(sources.last()).map(|s| s.cap);
+    check_feasible(m, &sources, total, w_t, water_cap)?;
     let x = optimise(&sources, total, alcohol).ok_or_else(|| {
         // The feasibility check passed, so this is a numerical failure.
         Error::Infeasible(format!(
@@ -279,6 +280,7 @@ fn check_feasible<M: Mixture + ?Sized>(
     sources: &[Source],
     total: f64,
     w_t: f64,
+    water_cap: Option<f64>,
 ) -> Result<()> {
     let usable: Vec<&Source> = sources.iter().filter(|s| s.cap > 0.0).collect();
     let Some(strongest) = usable.iter().copied().max_by(|a, b| a.w.total_cmp(&b.w)) else {
@@ -303,10 +305,10 @@ fn check_feasible<M: Mixture + ?Sized>(
         return Err(Error::Infeasible(format!(
             "the target {} is weaker than every lot{}; the weakest is {} at {}",
             describe(m, w_t),
-            if sources.iter().any(|s| s.name == "water") {
-                ""
-            } else {
-                " and no water is allowed"
+            match water_cap {
+                None => " and no water is allowed",
+                Some(c) if c <= 0.0 => " and the water's limit is zero",
+                Some(_) => "",
             },
             weakest.name,
             describe(m, weakest.w)
