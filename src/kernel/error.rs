@@ -45,6 +45,31 @@ pub enum Error {
     /// Any other invalid argument, described in words.
     #[error("{0}")]
     Invalid(String),
+
+    /// Valid inputs whose goal cannot be met (a reduction target at or above
+    /// the lot's strength, a blend target no mix of the lots reaches); the
+    /// text says why.
+    #[error("cannot meet the target: {0}")]
+    Infeasible(String),
+
+    /// An error in one item of a list (e.g. `lot 3`), with the item named.
+    #[error("{context}: {source}")]
+    Context {
+        /// The item, e.g. `lot 3`.
+        context: String,
+        /// What went wrong with it.
+        source: Box<Error>,
+    },
+}
+
+impl Error {
+    /// Wraps the error with the name of the item it concerns.
+    pub fn context(self, context: impl Into<String>) -> Self {
+        Error::Context {
+            context: context.into(),
+            source: Box::new(self),
+        }
+    }
 }
 
 /// Kernel result alias.

@@ -6,6 +6,7 @@ pub mod error;
 pub mod hydrometer;
 pub mod model;
 pub mod oiml;
+pub mod process;
 pub mod solve;
 pub mod uncertainty;
 pub mod volumetric;
@@ -15,5 +16,8 @@ pub use error::{Error, Result};
 pub use hydrometer::{HydrometerScale, GLASS_ALPHA};
 pub use model::{Component, Mixture, Validity, T_PROOF_C, T_REF_C};
 pub use oiml::EthanolWater;
+pub use process::{
+    blend, bottling, plan_blend, pure_alcohol, reduce, reduce_with_water_at, Amount, Lot, Weighing,
+};
 pub use uncertainty::StrengthUncertainty;
 pub use volumetric::Mixing;
