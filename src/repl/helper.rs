@@ -90,8 +90,9 @@ impl Completer for ReplHelper {
 impl Hinter for ReplHelper {
     type Hint = String;
 
-    /// The rest of the name when exactly one completion fits and the
-    /// cursor is at the end of the input.
+    /// The rest of the name when exactly one completion fits, at least two
+    /// characters are typed (one letter is too often the start of a
+    /// keyword) and the cursor is at the end of the input.
     fn hint(&self, line: &str, pos: usize, _ctx: &Context<'_>) -> Option<String> {
         if pos < line.len() || line.trim().is_empty() {
             return None;
@@ -101,7 +102,7 @@ impl Hinter for ReplHelper {
             return None;
         };
         let typed = line.get(start..pos)?;
-        if typed.is_empty() {
+        if typed.chars().count() < 2 {
             return None;
         }
         only.strip_prefix(typed)
@@ -208,6 +209,9 @@ mod tests {
         assert_eq!(h.hint("zz_uniq", 7, &ctx), Some("ue_name".to_string()));
         assert_eq!(h.hint("zz_unique_name", 14, &ctx), None);
         assert_eq!(h.hint("zz_uniq", 3, &ctx), None);
+        h.session.borrow_mut().eval("q_only = 1", "=test").unwrap();
+        assert_eq!(h.hint("q", 1, &ctx), None, "one letter is too little");
+        assert_eq!(h.hint("q_", 2, &ctx), Some("only".to_string()));
     }
 
     #[test]

@@ -555,12 +555,18 @@ pub fn run_interactive(options: HostOptions) -> u8 {
     if let Err(e) = signal::install() {
         eprintln!("warning: Ctrl-C will end the program, not just the calculation ({e})");
     }
+    // History is appended after every entry, so it survives a second Ctrl-C
+    // (which ends the process) and merges with other running sessions.
     let history = history_path();
+    let mut history_warned = false;
     if let Some(path) = &history {
         if path.exists() {
             if let Err(e) = editor.load_history(path) {
                 eprintln!("warning: cannot read history {}: {e}", path.display());
             }
+        } else if let Some(dir) = path.parent() {
+            // A failure shows up, once, when the first entry is saved.
+            let _ = std::fs::create_dir_all(dir);
         }
     }
     println!(
@@ -585,6 +591,14 @@ pub fn run_interactive(options: HostOptions) -> u8 {
             continue;
         }
         let _ = editor.add_history_entry(entry.as_str());
+        if let Some(path) = &history {
+            if let Err(e) = editor.append_history(path) {
+                if !history_warned {
+                    eprintln!("warning: cannot save history {}: {e}", path.display());
+                    history_warned = true;
+                }
+            }
+        }
         let mut stdout = io::stdout();
         if let Some(cmd) = MetaCommand::parse(&entry) {
             let result = cmd
@@ -607,16 +621,6 @@ pub fn run_interactive(options: HostOptions) -> u8 {
                 let _ = emit(&mut stdout, &text);
             }
             Err(e) => eprint!("{}", error_report(&e, trace)),
-        }
-    }
-    if let Some(path) = &history {
-        let saved = path
-            .parent()
-            .map_or(Ok(()), std::fs::create_dir_all)
-            .map_err(|e| e.to_string())
-            .and_then(|_| editor.save_history(path).map_err(|e| e.to_string()));
-        if let Err(e) = saved {
-            eprintln!("warning: cannot save history {}: {e}", path.display());
         }
     }
     status
