@@ -30,9 +30,9 @@ pub const EXIT_FAILURE: u8 = 1;
 
 /// Chunk name for interactive entries (errors read `repl:LINE: ...`).
 pub const INTERACTIVE_CHUNK: &str = "=repl";
-/// Chunk name for piped input (errors read `stdin:LINE: ...`, with LINE
-/// counted from the start of the input).
-pub const BATCH_CHUNK: &str = "=stdin";
+/// Label of piped input in messages: `stdin:LINE: ...`, with LINE counted
+/// from the start of the input.
+pub const BATCH_LABEL: &str = "stdin";
 
 /// Environment variable naming the history file; set but empty, history
 /// is neither read nor written.
@@ -323,6 +323,41 @@ pub fn error_report(err: &HostError, trace: bool) -> String {
     out
 }
 
+/// Rewrites every `label:START:LINE` (a location in a chunk named
+/// `label:START`, the chunk's first input line) into `label:N`, the line
+/// of the input, N = START + LINE - 1.
+pub fn absolute_lines(text: &str, label: &str) -> String {
+    let needle = format!("{label}:");
+    let mut out = String::with_capacity(text.len());
+    let mut rest = text;
+    while let Some(i) = rest.find(&needle) {
+        // `label` must start a word: `xstdin:3:4` is something else.
+        let at_word_start = !rest[..i]
+            .chars()
+            .next_back()
+            .is_some_and(|c| c.is_alphanumeric() || c == '_');
+        let after = &rest[i + needle.len()..];
+        out.push_str(&rest[..i + needle.len()]);
+        rest = after;
+        let start_len = after.bytes().take_while(u8::is_ascii_digit).count();
+        let tail = &after[start_len..];
+        let line_len = tail
+            .strip_prefix(':')
+            .map_or(0, |t| t.bytes().take_while(u8::is_ascii_digit).count());
+        if !at_word_start || start_len == 0 || line_len == 0 {
+            continue;
+        }
+        let start = after[..start_len].parse::<usize>();
+        let line = tail[1..1 + line_len].parse::<usize>();
+        if let (Ok(start), Ok(line)) = (start, line) {
+            out.push_str(&(start + line).saturating_sub(1).to_string());
+            rest = &tail[1 + line_len..];
+        }
+    }
+    out.push_str(rest);
+    out
+}
+
 /// Where the history lives: `$MENISCUS_HISTORY` if set (empty: no
 /// history), else `<data dir>/meniscus/history` (on Linux
 /// `$XDG_DATA_HOME/meniscus/history`, by default
@@ -383,7 +418,7 @@ pub fn run_batch(
             return EXIT_FAILURE;
         }
     };
-    let label = BATCH_CHUNK.trim_start_matches('=');
+    let label = BATCH_LABEL;
     let mut failed = false;
     let mut pending = String::new();
     let mut pending_start = 0usize;
@@ -490,15 +525,14 @@ fn eval_chunk(
     out: &mut dyn Write,
     err: &mut dyn Write,
 ) -> bool {
-    // Lua numbers lines from the start of each chunk. Blank lines in front
-    // make them count from the start of the input instead, and, unlike
-    // rewriting messages afterwards, this also holds for functions defined
-    // in an earlier chunk and called from a later one. (It costs one
-    // newline per preceding input line per chunk: a few ms for inputs of
-    // ten thousand lines.)
-    let mut source = "\n".repeat(start - 1);
-    source.push_str(chunk);
-    match session.eval(&source, BATCH_CHUNK) {
+    // Lua numbers lines from the start of each chunk. Each chunk is named
+    // after its first input line (`stdin:41`), so every location Lua
+    // reports reads `stdin:41:3`, also for a function defined in an earlier
+    // chunk and called from this one; `absolute_lines` turns that into the
+    // input line, `stdin:43`. (Padding the chunk with blank lines would do
+    // the same at a cost growing with the square of the input length.)
+    let name = format!("={BATCH_LABEL}:{start}");
+    match session.eval(chunk, &name) {
         Ok(text) => match emit(out, &text) {
             Ok(open) => open,
             Err(e) => {
@@ -509,7 +543,8 @@ fn eval_chunk(
         },
         Err(e) => {
             *failed = true;
-            let _ = err.write_all(error_report(&e, session.trace()).as_bytes());
+            let report = error_report(&e, session.trace());
+            let _ = err.write_all(absolute_lines(&report, BATCH_LABEL).as_bytes());
             true
         }
     }
@@ -630,6 +665,30 @@ mod tests {
     fn shown(expr: &str) -> String {
         let host = Host::new(HostOptions::default()).unwrap();
         host.format_values(&host.eval(expr, "=expected").unwrap())
+    }
+
+    #[test]
+    fn chunk_locations_become_input_lines() {
+        assert_eq!(
+            absolute_lines("stdin:10:3: oops", "stdin"),
+            "stdin:12: oops"
+        );
+        assert_eq!(
+            absolute_lines(
+                "error: stdin:1:1: a\n\tstdin:4:2: in function <stdin:4:1>\n",
+                "stdin"
+            ),
+            "error: stdin:1: a\n\tstdin:5: in function <stdin:4>\n"
+        );
+        for untouched in [
+            "xstdin:2:3: no",
+            "stdin:: no",
+            "stdin:2 no",
+            "stdin:2: x",
+            "stdin:a:1",
+        ] {
+            assert_eq!(absolute_lines(untouched, "stdin"), untouched);
+        }
     }
 
     #[test]
