@@ -31,8 +31,9 @@ Volumetrics of liquid mixtures: strength conversions, density and
 temperature corrections, pure-alcohol accounting, reductions and blends,
 for ethanol-water (OIML R 22) and other binary mixtures, scriptable in Lua.
 
-With no command, starts an interactive session (a REPL) when stdin is a
-terminal; with stdin from a pipe or file, evaluates the chunks read from it.";
+With no command, starts an interactive session (a REPL) when stdin and
+stdout are terminals; otherwise evaluates the chunks read from stdin, one
+after another, printing results only.";
 
 const AFTER_LONG_HELP: &str = "\
 Examples:

@@ -1,11 +1,11 @@
 //! The read–eval–print loop: a [`Session`] (one [`Host`] plus what the
 //! meta-commands need) and its two front ends.
 //!
-//! - [`run_interactive`]: a terminal on stdin — rustyline with history,
+//! - [`run_interactive`]: a terminal on stdin and stdout — rustyline with history,
 //!   Tab completion over live names, multi-line input while the chunk is
 //!   incomplete, Ctrl-C to cancel a line or stop an evaluation, Ctrl-D to
 //!   leave.
-//! - [`run_batch`]: anything else on stdin (a pipe, a file) — the same
+//! - [`run_batch`]: anything else (stdin or stdout a pipe or a file) — the same
 //!   chunking (lines accumulate until the chunk is complete) and the same
 //!   meta-commands, no prompt and no banner; results on stdout, errors on
 //!   stderr, and the exit status says whether any chunk failed.
@@ -370,10 +370,11 @@ pub fn history_path() -> Option<PathBuf> {
     }
 }
 
-/// Runs the REPL on the process's stdin: interactive on a terminal,
-/// batch otherwise. Returns the exit status.
+/// Runs the REPL on the process's stdin: interactive when stdin and stdout
+/// are both terminals, batch otherwise (so `meniscus > results.txt` gets
+/// results, not prompts and terminal escapes). Returns the exit status.
 pub fn run(options: HostOptions) -> u8 {
-    if io::stdin().is_terminal() {
+    if io::stdin().is_terminal() && io::stdout().is_terminal() {
         run_interactive(options)
     } else {
         let stdin = io::stdin();
