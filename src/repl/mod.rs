@@ -778,6 +778,22 @@ mod tests {
     }
 
     #[test]
+    fn plugin_files_are_lua_files_and_packages() {
+        let dir = tempfile::tempdir().unwrap();
+        let d = dir.path();
+        std::fs::write(d.join("cellar_tools.lua"), "").unwrap();
+        std::fs::write(d.join("notes.txt"), "").unwrap();
+        std::fs::create_dir(d.join("blending")).unwrap();
+        std::fs::write(d.join("blending").join("init.lua"), "").unwrap();
+        std::fs::create_dir(d.join("empty_dir")).unwrap();
+        assert_eq!(
+            plugin_files(d).unwrap(),
+            ["blending/init.lua", "cellar_tools.lua"]
+        );
+        assert!(plugin_files(&d.join("missing")).is_err());
+    }
+
+    #[test]
     fn describe_walks_dotted_names() {
         let host = Host::new(HostOptions::default()).unwrap();
         assert!(describe(&host, "math").unwrap().contains("sin()"));
