@@ -6,8 +6,12 @@
 //! Cargo features (`lua`, `repl`, `cli`; all on by default), so an embedder
 //! can take the kernel alone with `default-features = false`.
 
+#[cfg(feature = "cli")]
+pub mod cli;
 pub mod kernel;
 #[cfg(feature = "lua")]
 pub mod lua;
+#[cfg(feature = "repl")]
+pub mod repl;
 
 pub use kernel::{Composition, Error, EthanolWater, Mixture, Result, Strength};

@@ -1,13 +1,16 @@
-//! The `meniscus` command line.
+//! The `meniscus` binary: parse the command line, run, exit with the
+//! status [`meniscus::cli::run`] returns. Everything else lives in the
+//! library (`meniscus::cli`, `meniscus::repl`).
 
-use meniscus::kernel::{Composition, EthanolWater, Mixture};
+use std::process::ExitCode;
 
-fn main() {
-    let m = EthanolWater::new();
-    for abv in [0.0, 20.0, 40.0, 60.0, 80.0, 100.0] {
-        match m.density_of(Composition::abv(abv), 20.0) {
-            Ok(r) => println!("{abv:5.1} % vol  {r:9.3} kg/m³"),
-            Err(e) => eprintln!("error: {e}"),
-        }
-    }
+use clap::Parser;
+use meniscus::cli::{self, Cli};
+
+fn main() -> ExitCode {
+    let code = match Cli::try_parse() {
+        Ok(args) => cli::run(args),
+        Err(e) => cli::report_parse_error(e),
+    };
+    ExitCode::from(code)
 }
