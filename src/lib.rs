@@ -6,6 +6,7 @@
 //! Cargo features (`lua`, `repl`, `cli`; all on by default), so an embedder
 //! can take the kernel alone with `default-features = false`.
 
+pub mod io;
 pub mod kernel;
 #[cfg(feature = "lua")]
 pub mod lua;

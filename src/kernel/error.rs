@@ -45,6 +45,60 @@ pub enum Error {
     /// Any other invalid argument, described in words.
     #[error("{0}")]
     Invalid(String),
+
+    /// A sheet column name that does not exist; lists the columns that do.
+    #[error("unknown column \"{name}\"; the columns are: {}", quote_list(.columns))]
+    UnknownColumn { name: String, columns: Vec<String> },
+
+    /// Formula columns that depend on each other in a loop, in loop order
+    /// (the first name is repeated at the end).
+    #[error("formula columns form a cycle: {}", .columns.join(" → "))]
+    Cycle { columns: Vec<String> },
+
+    /// A bad value in one sheet cell: a non-finite number, a failed formula.
+    /// `row` is 0-based; the message counts rows from 1 (index 0 is "row 1").
+    #[error("column \"{column}\", row {}: {message}", .row + 1)]
+    Cell {
+        column: String,
+        row: usize,
+        message: String,
+    },
+
+    /// Malformed CSV input. `line` and `column` (the field number) count
+    /// from 1; `column` is absent when the fault concerns a whole record.
+    #[error("csv line {line}{}: {message}", .column.map(|c| format!(", column {c}")).unwrap_or_default())]
+    Csv {
+        line: u64,
+        column: Option<usize>,
+        message: String,
+    },
+
+    /// A read or write on a caller's reader or writer failed.
+    #[error("i/o error: {message}")]
+    Io {
+        kind: std::io::ErrorKind,
+        message: String,
+    },
+}
+
+fn quote_list(names: &[String]) -> String {
+    if names.is_empty() {
+        return "(none)".to_string();
+    }
+    names
+        .iter()
+        .map(|n| format!("\"{n}\""))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+impl From<std::io::Error> for Error {
+    fn from(e: std::io::Error) -> Self {
+        Error::Io {
+            kind: e.kind(),
+            message: e.to_string(),
+        }
+    }
 }
 
 /// Kernel result alias.
