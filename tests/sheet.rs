@@ -964,3 +964,74 @@ fn a_failed_export_leaves_no_file() {
     assert_eq!(back.unwrap(), s);
     assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
 }
+
+// ------------------------------------------------------------ consistency
+
+#[derive(Debug, Clone)]
+enum Edit {
+    Set { row: usize, col: bool, x: f64 },
+    AddRow(f64, f64),
+    Sort { by: usize, ascending: bool },
+    KeepAbove(f64),
+}
+
+fn edits() -> impl Strategy<Value = Vec<Edit>> {
+    let small = (-40i32..40).prop_map(|i| i as f64 / 4.0);
+    prop::collection::vec(
+        prop_oneof![
+            6 => (0usize..64, any::<bool>(), small.clone())
+                .prop_map(|(row, col, x)| Edit::Set { row, col, x }),
+            2 => (small.clone(), small.clone()).prop_map(|(a, b)| Edit::AddRow(a, b)),
+            1 => (0usize..6, any::<bool>()).prop_map(|(by, ascending)| Edit::Sort { by, ascending }),
+            1 => small.prop_map(Edit::KeepAbove),
+        ],
+        1..30,
+    )
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(200))]
+
+    /// After any sequence of edits every formula cell equals its formula
+    /// applied to its row (a full recalculation changes nothing), and each
+    /// `set` evaluates exactly the dependents of the column, once each.
+    #[test]
+    fn edits_keep_every_formula_cell_current(
+        x in prop::collection::vec(-10i32..10, 1..8),
+        list in edits(),
+    ) {
+        let x: Vec<f64> = x.into_iter().map(f64::from).collect();
+        let y: Vec<f64> = x.iter().map(|v| v * 0.5 - 1.0).collect();
+        let mut s = data(&[("x", x), ("y", y)]);
+        let mut ev = Log::default();
+        s.add_formula("a", &["x"], FormulaId(2), &mut ev).unwrap(); // x + 1
+        s.add_formula("b", &["a"], FormulaId(1), &mut ev).unwrap(); // 2a
+        s.add_formula("c", &["a", "y"], FormulaId(3), &mut ev).unwrap(); // a y
+        s.add_formula("d", &["y"], FormulaId(4), &mut ev).unwrap(); // y - 1
+        let names = ["x", "y", "a", "b", "c", "d"];
+        for e in list {
+            ev.calls.clear();
+            match e {
+                Edit::Set { row, col, x } => {
+                    if s.nrows() == 0 { continue; }
+                    let row = row % s.nrows();
+                    let col = if col { "x" } else { "y" };
+                    s.set(row, col, Value::Number(x), &mut ev).unwrap();
+                    let mut ids = ev.ids();
+                    ids.sort();
+                    let expected = if col == "x" { vec![1, 2, 3] } else { vec![3, 4] };
+                    prop_assert_eq!(ids, expected);
+                    prop_assert!(ev.calls.iter().all(|c| c.1 == row));
+                }
+                Edit::AddRow(a, b) => s.add_row(vec![a.into(), b.into()], &mut ev).unwrap(),
+                Edit::Sort { by, ascending } => s.sort(names[by], ascending).unwrap(),
+                Edit::KeepAbove(t) => {
+                    s = s.filter(|r| Ok(r.get("c").and_then(|c| c.as_number()).unwrap() > t)).unwrap()
+                }
+            }
+            let mut fresh = s.clone();
+            fresh.recalculate(&mut ev).unwrap();
+            prop_assert_eq!(&fresh, &s);
+        }
+    }
+}

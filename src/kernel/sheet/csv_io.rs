@@ -1,25 +1,9 @@
 //! Sheets to and from CSV, over any `io::Read` / `io::Write` (the kernel
-//! opens no files).
-//!
-//! Reading rules:
-//! - The first record is the header: one unique, non-blank name per column.
-//! - Every record must have as many fields as the header.
-//! - A column is numeric when each of its non-empty fields parses as a
-//!   number (surrounding spaces allowed). In a numeric column, `NaN` or
-//!   `inf` is an error, and so is an empty field unless
-//!   [`CsvOptions::allow_empty_numbers`] is set (then it is an empty cell).
-//!   Any other column is text: every field is kept as written, an empty
-//!   field is an empty cell.
-//! - Invalid UTF-8, a quote left open at the end of the input, and (in a
-//!   one-column file, where a blank line would be an empty row) a blank
-//!   line are errors.
-//!
-//! Every error names the line and the column (field number), both counted
-//! from 1. No row is ever skipped.
-//!
-//! Writing: a header row, then one record per row; numbers in Rust's
-//! shortest form that reads back to the same `f64`, texts quoted when they
-//! hold the delimiter, a quote or a line break; empty cells as empty fields.
+//! opens no files). The rules are on [`Sheet::read_csv`] and
+//! [`Sheet::write_csv`]. The csv parser never reports a quote left open (it
+//! lets the quoted field run to the end of the input) and skips blank lines
+//! silently, so a small scanner follows the bytes alongside it to catch
+//! both.
 
 use std::fmt::Write as _;
 use std::io::{self, Read, Write};
@@ -49,15 +33,47 @@ impl Default for CsvOptions {
 }
 
 impl Sheet {
-    /// Reads a sheet (data columns only) from CSV; see the module docs of
-    /// `sheet::csv_io` for the rules. Errors are [`Error::Csv`] with line and
-    /// column, or [`Error::Io`] when the reader fails.
+    /// Reads a sheet (data columns only) from CSV.
+    ///
+    /// - The first record is the header: one unique, non-blank name per
+    ///   column (a leading UTF-8 byte-order mark is ignored).
+    /// - Every record must have as many fields as the header.
+    /// - A column is numeric when each of its non-empty fields parses as a
+    ///   number (spaces around it allowed) and at least one field is not
+    ///   empty. In a numeric column `NaN` or `inf` is an error, and so is an
+    ///   empty field unless [`CsvOptions::allow_empty_numbers`] is set (then
+    ///   it is an empty cell).
+    /// - Any other column is text: every field is kept exactly as written,
+    ///   and an empty field is an empty cell.
+    /// - Invalid UTF-8 and a quote left open at the end of the input are
+    ///   errors. Blank lines between records are not rows and are skipped,
+    ///   except in a one-column file, where a blank line could be meant as an
+    ///   empty cell and is an error (write `""` for an empty cell there).
+    ///   Blank lines at the end are ignored.
+    ///
+    /// No row is ever dropped. Errors are [`Error::Csv`] with the line and
+    /// the column (field number), both counted from 1, or [`Error::Io`]
+    /// when the reader fails.
     pub fn read_csv<R: Read>(reader: R, options: &CsvOptions) -> Result<Sheet> {
         read(reader, options)
     }
 
-    /// Writes the sheet as CSV (header row first). Formula columns are
-    /// written as their values.
+    /// Writes the sheet as CSV: a header row, then one record per row, `\n`
+    /// line ends. Numbers are written in the shortest form that reads back
+    /// to the same `f64` (Rust's `{}`: `0.30000000000000004`, `1`,
+    /// `-0.00000025`, never an exponent); texts are quoted when they hold
+    /// the delimiter, a quote or a line break; empty cells are empty fields
+    /// (a lone empty field is written `""`). Formula columns are written as
+    /// their values.
+    ///
+    /// [`Sheet::read_csv`] gives the sheet back unchanged (formula columns
+    /// become data columns) for columns of numbers and columns of texts
+    /// and empty cells. CSV has no types, so three kinds of column come
+    /// back differently: a text column whose every non-empty cell looks
+    /// like a number is read as numbers; a column mixing numbers and texts
+    /// is read as texts; numbers with empty cells need
+    /// [`CsvOptions::allow_empty_numbers`]. [`Sheet::write_json`] keeps
+    /// types.
     pub fn write_csv<W: Write>(&self, writer: W, options: &CsvOptions) -> Result<()> {
         write(self, writer, options)
     }
