@@ -296,7 +296,7 @@ fn read<R: Read>(reader: R, options: &CsvOptions) -> Result<Sheet> {
     let header_line = rec.position().map_or(1, |p| p.line());
     let mut names: Vec<String> = Vec::with_capacity(rec.len());
     for (j, field) in rec.iter().enumerate() {
-        let name = utf8_field(field, header_line, &rec, j, "the header")?;
+        let name = utf8_field(field, header_line, &rec, j, None)?;
         if name.trim().is_empty() {
             return Err(csv_error(
                 header_line,
@@ -329,7 +329,7 @@ fn read<R: Read>(reader: R, options: &CsvOptions) -> Result<Sheet> {
         }
         let line = rec.position().map_or(0, |p| p.line());
         for (j, field) in rec.iter().enumerate() {
-            let s = utf8_field(field, line, &rec, j, &names[j])?;
+            let s = utf8_field(field, line, &rec, j, Some(&names[j]))?;
             let col = &mut raw[j];
             col.text.push_str(s);
             col.ends.push(col.text.len());
@@ -380,7 +380,7 @@ fn utf8_field<'r>(
     record_line: u64,
     rec: &csv::ByteRecord,
     j: usize,
-    column: &str,
+    column: Option<&str>,
 ) -> Result<&'r str> {
     std::str::from_utf8(field).map_err(|e| {
         let good = &field[..e.valid_up_to()];
@@ -394,10 +394,9 @@ fn utf8_field<'r>(
             let chars: Vec<char> = good.chars().collect();
             chars[chars.len().saturating_sub(20)..].iter().collect()
         };
-        let whom = if column == "the header" {
-            "the header".to_string()
-        } else {
-            format!("column \"{column}\"")
+        let whom = match column {
+            None => "the header".to_string(),
+            Some(name) => format!("column \"{name}\""),
         };
         csv_error(
             record_line + newlines as u64,
