@@ -8,6 +8,7 @@
 
 #[cfg(feature = "cli")]
 pub mod cli;
+pub mod io;
 pub mod kernel;
 #[cfg(feature = "lua")]
 pub mod lua;

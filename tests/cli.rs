@@ -4,6 +4,7 @@
 //!
 //! Expected values are formatted by the library's own host, so these tests
 //! check the command line, not a display format.
+#![cfg(feature = "cli")]
 
 use std::io::Read;
 use std::path::{Path, PathBuf};

@@ -1,6 +1,7 @@
 //! The REPL through piped stdin: multi-line chunks, errors that do not end
 //! the session, meta-commands, and exit statuses, as a user piping a file
 //! into `meniscus` meets them.
+#![cfg(feature = "cli")]
 
 use std::io::Write;
 use std::process::{Command, Output, Stdio};

@@ -60,6 +60,56 @@ pub enum Error {
         /// What went wrong with it.
         source: Box<Error>,
     },
+
+    /// A sheet column name that does not exist; lists the columns that do.
+    #[error("unknown column \"{name}\"; the columns are: {}", quote_list(.columns))]
+    UnknownColumn {
+        /// The name asked for.
+        name: String,
+        /// The sheet's column names, in order.
+        columns: Vec<String>,
+    },
+
+    /// Formula columns that depend on each other in a loop, in loop order
+    /// (the first name is repeated at the end).
+    #[error("formula columns form a cycle: {}", .columns.join(" → "))]
+    Cycle {
+        /// Column names around the loop, first repeated at the end.
+        columns: Vec<String>,
+    },
+
+    /// A bad value in one sheet cell: a non-finite number, a failed formula.
+    /// `row` is 0-based; the message counts rows from 1 (index 0 is "row 1").
+    #[error("column \"{column}\", row {}: {message}", .row + 1)]
+    Cell {
+        /// Column name.
+        column: String,
+        /// 0-based row index.
+        row: usize,
+        /// What is wrong with the cell.
+        message: String,
+    },
+
+    /// Malformed CSV input. `line` and `column` (the field number) count
+    /// from 1; `column` is absent when the fault concerns a whole record.
+    #[error("csv line {line}{}: {message}", .column.map(|c| format!(", column {c}")).unwrap_or_default())]
+    Csv {
+        /// 1-based line of the input.
+        line: u64,
+        /// 1-based field number, when the fault is in one field.
+        column: Option<usize>,
+        /// What is wrong and how to fix it.
+        message: String,
+    },
+
+    /// A read or write on a caller's reader or writer failed.
+    #[error("i/o error: {message}")]
+    Io {
+        /// The kind of the underlying `std::io::Error`.
+        kind: std::io::ErrorKind,
+        /// Its message.
+        message: String,
+    },
 }
 
 impl Error {
@@ -68,6 +118,26 @@ impl Error {
         Error::Context {
             context: context.into(),
             source: Box::new(self),
+        }
+    }
+}
+
+fn quote_list(names: &[String]) -> String {
+    if names.is_empty() {
+        return "(none)".to_string();
+    }
+    names
+        .iter()
+        .map(|n| format!("\"{n}\""))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+impl From<std::io::Error> for Error {
+    fn from(e: std::io::Error) -> Self {
+        Error::Io {
+            kind: e.kind(),
+            message: e.to_string(),
         }
     }
 }

@@ -7,6 +7,7 @@ pub mod hydrometer;
 pub mod model;
 pub mod oiml;
 pub mod process;
+pub mod sheet;
 pub mod solve;
 pub mod uncertainty;
 pub mod volumetric;
@@ -19,5 +20,6 @@ pub use oiml::EthanolWater;
 pub use process::{
     blend, bottling, plan_blend, pure_alcohol, reduce, reduce_with_water_at, Amount, Lot, Weighing,
 };
+pub use sheet::{Sheet, Value};
 pub use uncertainty::StrengthUncertainty;
 pub use volumetric::Mixing;
