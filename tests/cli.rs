@@ -214,7 +214,7 @@ fn script_errors_exit_1() {
 }
 
 #[test]
-#[ignore = "needs host error messages"]
+
 fn error_line_is_location_then_message() {
     let dir = tempfile::tempdir().unwrap();
     let s = script(dir.path(), "cut.lua", "\n\nerror('below the cut point')\n");
@@ -307,7 +307,7 @@ fn memory_bomb_by_table_growth_is_stopped() {
 }
 
 #[test]
-#[ignore = "needs host limits"]
+
 fn timeout_stops_an_infinite_loop() {
     for args in [
         vec!["--timeout", "1", "eval", "while true do end"],

@@ -122,12 +122,13 @@ impl Session {
     /// `:help NAME`: the host's own `help` function when there is one
     /// (it knows the API's documentation), else a description of the value.
     fn help_on(&mut self, name: &str) -> Result<String, String> {
-        let globals = self.host.lua().globals();
-        if let Ok(mlua::Value::Function(_)) = globals.get::<mlua::Value>("help") {
-            let chunk = format!("return help({})", lua_quote(name));
-            return self.eval(&chunk, "=help").map_err(|e| e.message);
+        // The host's help registry first; a name it does not know may still
+        // be a value defined in this session, which `describe` reports.
+        let text = self.host.help_text(name);
+        if !text.starts_with("no help for") {
+            return Ok(text);
         }
-        describe(&self.host, name)
+        describe(&self.host, name).map_err(|_| text)
     }
 
     /// `:list [all]`.
