@@ -272,22 +272,6 @@ fn describe(host: &Host, name: &str) -> Result<String, String> {
     })
 }
 
-/// A Lua string literal holding `s` exactly.
-fn lua_quote(s: &str) -> String {
-    let mut out = String::with_capacity(s.len() + 2);
-    out.push('"');
-    for b in s.bytes() {
-        match b {
-            b'"' => out.push_str("\\\""),
-            b'\\' => out.push_str("\\\\"),
-            0x20..=0x7e => out.push(b as char),
-            _ => out.push_str(&format!("\\{b:03}")),
-        }
-    }
-    out.push('"');
-    out
-}
-
 /// The `:help` guide.
 pub fn guide() -> String {
     format!(
