@@ -9,5 +9,7 @@
 pub mod kernel;
 #[cfg(feature = "lua")]
 pub mod lua;
+#[cfg(feature = "plot")]
+pub mod plot;
 
 pub use kernel::{Composition, Error, EthanolWater, Mixture, Result, Strength};

@@ -96,7 +96,8 @@ pub fn tangent_intercept(
         let mbar = 1.0 / (r.w / m1 + (1.0 - r.w) / m2);
         pts.push((x_from_w(r.w, m1, m2), 1000.0 * mbar / r.rho));
     }
-    let distinct = super::engine::count_distinct(&pts.iter().map(|p| p.0).collect::<Vec<_>>(), 1e-9);
+    let distinct =
+        super::engine::count_distinct(&pts.iter().map(|p| p.0).collect::<Vec<_>>(), 1e-9);
     if distinct < 3 {
         return Err(Error::Fit(format!(
             "the tangent cross-check needs rows at 3 or more compositions within {t_tol} K of \
@@ -157,9 +158,11 @@ fn local_tangent(pts: &[(f64, f64)], x0: f64, window: usize) -> Result<TangentPm
     })?;
     let vm = sol.coef[0];
     let slope = sol.coef[1] / h;
-    let (lo, hi) = sel.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, u), &i| {
-        (l.min(pts[i].0), u.max(pts[i].0))
-    });
+    let (lo, hi) = sel
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, u), &i| {
+            (l.min(pts[i].0), u.max(pts[i].0))
+        });
     Ok(TangentPmv {
         x: x0,
         v1: vm + (1.0 - x0) * slope,
@@ -199,7 +202,14 @@ impl FittedMixture {
     /// the model's own data rows within `t_tol` °C of `t` (see
     /// [`tangent_intercept`]), at mole fractions `xs`.
     pub fn cross_check(&self, t: f64, t_tol: f64, xs: &[f64], window: usize) -> Result<CrossCheck> {
-        let local = tangent_intercept(&self.provenance.rows, &self.components, t, t_tol, xs, window)?;
+        let local = tangent_intercept(
+            &self.provenance.rows,
+            &self.components,
+            t,
+            t_tol,
+            xs,
+            window,
+        )?;
         let (m1, m2) = (self.components[0].molar_mass, self.components[1].molar_mass);
         let rows = local
             .into_iter()
@@ -215,7 +225,10 @@ impl FittedMixture {
             .collect::<Result<Vec<_>>>()?;
         Ok(CrossCheck {
             t,
-            components: [self.components[0].name.clone(), self.components[1].name.clone()],
+            components: [
+                self.components[0].name.clone(),
+                self.components[1].name.clone(),
+            ],
             rows,
         })
     }

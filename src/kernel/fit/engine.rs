@@ -45,8 +45,16 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
     let mut pure_reports = Vec::with_capacity(2);
     let mut pure_row_stats: Vec<(usize, f64, f64)> = Vec::new();
     for i in 0..2 {
-        let (curve, report, stats) =
-            pure_curve(spec, rows, i, t0, weighted, n_temps, (t_lo, t_hi), &mut warnings)?;
+        let (curve, report, stats) = pure_curve(
+            spec,
+            rows,
+            i,
+            t0,
+            weighted,
+            n_temps,
+            (t_lo, t_hi),
+            &mut warnings,
+        )?;
         pure_curves.push(curve);
         pure_reports.push(report);
         pure_row_stats.extend(stats);
@@ -190,7 +198,8 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
                 if n > p + 2 {
                     let floor = (64.0 * f64::EPSILON).powi(2) * y_norm2;
                     let rss = s.rss.max(floor).max(f64::MIN_POSITIVE);
-                    let aicc = nn * (rss / nn).ln() + 2.0 * kk + 2.0 * kk * (kk + 1.0) / (nn - kk - 1.0);
+                    let aicc =
+                        nn * (rss / nn).ln() + 2.0 * kk + 2.0 * kk * (kk + 1.0) / (nn - kk - 1.0);
                     entry.aicc = Some(aicc);
                     if best.is_none_or(|(_, b)| aicc < b) {
                         best = Some((table.len(), aicc));
@@ -218,7 +227,9 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
     let terms = table[chosen].terms;
     let t_order = table[chosen].t_order;
     let p = terms * (t_order + 1);
-    let sol = solutions[chosen].take().expect("chosen candidate has a solution");
+    let sol = solutions[chosen]
+        .take()
+        .expect("chosen candidate has a solution");
     let dof = n - p;
     let sigma2 = sol.rss / dof as f64;
     let cov: Vec<f64> = sol.cov_unscaled.iter().map(|c| c * sigma2).collect();
@@ -282,7 +293,9 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
         let rr = &mut residuals[i];
         rr.ve_residual = Some(e);
         rr.leverage = h;
-        rr.studentized = studentize(sw[ii] * e, sigma, h, dof);
+        // V^E and density residuals have opposite signs (ρ = 1000 M̄/V_m);
+        // report the studentized residual with the density's sign.
+        rr.studentized = -studentize(sw[ii] * e, sigma, h, dof);
         ss_ve += e * e;
         ss_rho += rr.rho_residual * rr.rho_residual;
     }
@@ -427,7 +440,10 @@ fn check_spec(spec: &FitSpec) -> Result<()> {
     }
     for (i, p) in spec.pure.iter().enumerate() {
         if let PureSource::Given(d) = p {
-            d.check(&format!("given density of pure {}", spec.components[i].name))?;
+            d.check(&format!(
+                "given density of pure {}",
+                spec.components[i].name
+            ))?;
         }
     }
     Ok(())
@@ -441,7 +457,11 @@ fn check_rows(rows: &[FitRow]) -> Result<bool> {
             row: i + 1,
             message,
         };
-        for (name, v) in [("mass fraction w", r.w), ("density", r.rho), ("temperature", r.t)] {
+        for (name, v) in [
+            ("mass fraction w", r.w),
+            ("density", r.rho),
+            ("temperature", r.t),
+        ] {
             if !v.is_finite() {
                 return Err(bad(format!("{name} must be a finite number, got {v}")));
             }
@@ -573,7 +593,10 @@ fn pure_curve(
             tj *= rows[r].t - t0;
         }
     }
-    let y = DVector::from_iterator(n, idx.iter().enumerate().map(|(ii, &r)| sw[ii] * rows[r].rho));
+    let y = DVector::from_iterator(
+        n,
+        idx.iter().enumerate().map(|(ii, &r)| sw[ii] * rows[r].rho),
+    );
     let sol = lsq::solve_dense(a.clone(), &y).map_err(|cond| {
         Error::Fit(format!(
             "the density curve of pure {name} cannot be fitted (condition number {cond:.2e})"
@@ -585,7 +608,12 @@ fn pure_curve(
     // stated uncertainties are then taken at face value (σ = 1); without
     // them the curve's uncertainty is unknown.
     let cov = if dof > 0 {
-        Some(sol.cov_unscaled.iter().map(|c| c * sigma2).collect::<Vec<_>>())
+        Some(
+            sol.cov_unscaled
+                .iter()
+                .map(|c| c * sigma2)
+                .collect::<Vec<_>>(),
+        )
     } else if weighted {
         Some(sol.cov_unscaled.clone())
     } else {

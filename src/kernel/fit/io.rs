@@ -234,9 +234,10 @@ fn build(raw: RawFile) -> Result<FittedMixture> {
     for c in &components {
         check_component(c).map_err(|e| bad(e.to_string()))?;
     }
-    let [p1, p2]: [RawPure; 2] = raw.pure_densities.try_into().map_err(|v: Vec<RawPure>| {
-        bad(format!("needs 2 pure densities, has {}", v.len()))
-    })?;
+    let [p1, p2]: [RawPure; 2] = raw
+        .pure_densities
+        .try_into()
+        .map_err(|v: Vec<RawPure>| bad(format!("needs 2 pure densities, has {}", v.len())))?;
     let mut pure = Vec::new();
     for (i, p) in [p1, p2].into_iter().enumerate() {
         let what = format!("pure density of {}", components[i].name);

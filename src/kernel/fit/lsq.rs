@@ -57,7 +57,11 @@ impl Reduced {
             .copy_from(&r_small.view((0, 0), (k, p)));
         let mut qty = DVector::zeros(p);
         qty.rows_mut(0, k).copy_from(&qy.rows(0, k));
-        let rss_perp = if n > p { qy.rows(p, n - p).norm_squared() } else { 0.0 };
+        let rss_perp = if n > p {
+            qy.rows(p, n - p).norm_squared()
+        } else {
+            0.0
+        };
         Reduced { r, qty, rss_perp }
     }
 
@@ -80,7 +84,11 @@ impl Reduced {
         let s = &svd.singular_values;
         let smax = s.max();
         let smin = s.min();
-        let condition = if smin > 0.0 { smax / smin } else { f64::INFINITY };
+        let condition = if smin > 0.0 {
+            smax / smin
+        } else {
+            f64::INFINITY
+        };
         if !(condition <= MAX_CONDITION) {
             return Err(condition);
         }

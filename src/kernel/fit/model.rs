@@ -11,7 +11,7 @@
 //! [`FittedMixture::extrapolation_warning`] for a sentence to show beside
 //! any result outside the data.
 
-use super::{PureDensity, FitRow, MAX_TERMS};
+use super::{FitRow, PureDensity, MAX_TERMS};
 use crate::kernel::composition::x_from_w;
 use crate::kernel::error::{Error, Result};
 use crate::kernel::model::{Component, Mixture, Validity};
@@ -169,7 +169,12 @@ impl FittedMixture {
         let ok = [range.w_min, range.w_max, range.t_min, range.t_max]
             .iter()
             .all(|v| v.is_finite());
-        if !ok || range.w_min < 0.0 || range.w_max > 1.0 || range.w_min > range.w_max || range.t_min > range.t_max {
+        if !ok
+            || range.w_min < 0.0
+            || range.w_max > 1.0
+            || range.w_min > range.w_max
+            || range.t_min > range.t_max
+        {
             return Err(Error::Invalid(format!(
                 "extrapolation range must be finite with 0 <= w_min <= w_max <= 1 and t_min <= t_max, got w {}..{} and t {}..{} °C",
                 range.w_min, range.w_max, range.t_min, range.t_max
@@ -315,7 +320,11 @@ impl FittedMixture {
         let mut q = [0.0; MAX_TERMS + 3];
         for m in 0..n + 2 {
             let pm = if m < n { a[m] } else { 0.0 };
-            let pm2 = if (2..n + 2).contains(&m) { a[m - 2] } else { 0.0 };
+            let pm2 = if (2..n + 2).contains(&m) {
+                a[m - 2]
+            } else {
+                0.0
+            };
             q[m] = 0.25 * (pm - pm2);
         }
         let mut f1 = [0.0; MAX_TERMS + 2];
@@ -425,10 +434,7 @@ impl FittedMixture {
         let g = self.gradients(x, t);
         let u1 = (quad_form(&self.excess.cov, &g[1]) + self.u_pure_volume(0, t).powi(2)).sqrt();
         let u2 = (quad_form(&self.excess.cov, &g[2]) + self.u_pure_volume(1, t).powi(2)).sqrt();
-        Ok([
-            Estimate { value: v1, u: u1 },
-            Estimate { value: v2, u: u2 },
-        ])
+        Ok([Estimate { value: v1, u: u1 }, Estimate { value: v2, u: u2 }])
     }
 
     /// Partial molar volumes at every mass fraction in `ws`, at `t` °C,
@@ -583,6 +589,10 @@ impl Mixture for FittedMixture {
     }
 
     fn x_from_w(&self, w: f64) -> f64 {
-        x_from_w(w, self.components[0].molar_mass, self.components[1].molar_mass)
+        x_from_w(
+            w,
+            self.components[0].molar_mass,
+            self.components[1].molar_mass,
+        )
     }
 }

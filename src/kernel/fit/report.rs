@@ -65,8 +65,8 @@ pub struct RowResidual {
     pub leverage: f64,
     /// Externally studentized residual: the weighted residual divided by
     /// the residual standard deviation of the fit without that row and by
-    /// √(1 − leverage); 0 when undefined (leverage 1, or fewer than two
-    /// residual degrees of freedom).
+    /// √(1 − leverage), signed like the density residual; 0 when undefined
+    /// (leverage 1, or fewer than two residual degrees of freedom).
     pub studentized: f64,
     /// |studentized| > [`OUTLIER_LIMIT`](super::OUTLIER_LIMIT).
     pub outlier: bool,
@@ -185,7 +185,10 @@ impl fmt::Display for FitReport {
             d.w_min, d.w_max, d.t_min, d.t_max
         )?;
         writeln!(f)?;
-        writeln!(f, "Pure-component densities ρ*(t) = Σ c_m (t − t₀)^m, kg/m³")?;
+        writeln!(
+            f,
+            "Pure-component densities ρ*(t) = Σ c_m (t − t₀)^m, kg/m³"
+        )?;
         for p in &self.pure {
             let origin = match p.origin {
                 PureOrigin::Fitted => "fitted",
@@ -218,21 +221,40 @@ impl fmt::Display for FitReport {
             f,
             "  {} terms ({}), temperature order {} — {} ({})",
             self.terms,
-            if self.terms_auto { "chosen by AICc" } else { "fixed" },
+            if self.terms_auto {
+                "chosen by AICc"
+            } else {
+                "fixed"
+            },
             self.t_order,
             order_name(self.t_order),
-            if self.order_auto { "chosen by AICc" } else { "fixed" },
+            if self.order_auto {
+                "chosen by AICc"
+            } else {
+                "fixed"
+            },
         )?;
-        writeln!(f, "  {:>3} {:>3} {:>16} {:>12}", "k", "j", "a_kj", "u(a_kj)")?;
+        writeln!(
+            f,
+            "  {:>3} {:>3} {:>16} {:>12}",
+            "k", "j", "a_kj", "u(a_kj)"
+        )?;
         for c in &self.coefficients {
-            writeln!(f, "  {:>3} {:>3} {:>16.8e} {:>12.3e}", c.k, c.j, c.value, c.u)?;
+            writeln!(
+                f,
+                "  {:>3} {:>3} {:>16.8e} {:>12.3e}",
+                c.k, c.j, c.value, c.u
+            )?;
         }
         writeln!(f)?;
         writeln!(f, "Residuals ({} degrees of freedom)", self.dof)?;
         writeln!(f, "  sd of V^E:      {:.3e} cm³/mol", self.residual_sd_ve)?;
         writeln!(f, "  sd of density:  {:.4} kg/m³", self.residual_sd_rho)?;
         if let Some(b) = self.birge_ratio {
-            writeln!(f, "  √(χ²/dof):      {b:.3} (1 when the stated uncertainties explain the scatter)")?;
+            writeln!(
+                f,
+                "  √(χ²/dof):      {b:.3} (1 when the stated uncertainties explain the scatter)"
+            )?;
         }
         if let Some(r) = self.residuals.get(self.largest_residual) {
             writeln!(
@@ -244,7 +266,11 @@ impl fmt::Display for FitReport {
                 r.rho_residual
             )?;
         }
-        writeln!(f, "  condition number of the design: {:.3e}", self.condition_number)?;
+        writeln!(
+            f,
+            "  condition number of the design: {:.3e}",
+            self.condition_number
+        )?;
         if self.outliers.is_empty() {
             writeln!(
                 f,
