@@ -201,7 +201,7 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
                     let aicc =
                         nn * (rss / nn).ln() + 2.0 * kk + 2.0 * kk * (kk + 1.0) / (nn - kk - 1.0);
                     entry.aicc = Some(aicc);
-                    if best.is_none_or(|(_, b)| aicc < b) {
+                    if best.map_or(true, |(_, b)| aicc < b) {
                         best = Some((table.len(), aicc));
                     }
                 } else if !single {
@@ -358,7 +358,9 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
 /// it is undefined (leverage 1, or fewer than 2 residual degrees of
 /// freedom).
 fn studentize(e: f64, sigma: f64, h: f64, dof: usize) -> f64 {
-    if dof < 2 || !(h < 1.0 - 1e-10) || !(sigma > 0.0) {
+    // NaN leverage or σ fall through to 0 as well.
+    let usable = h < 1.0 - 1e-10 && sigma > 0.0;
+    if dof < 2 || !usable {
         return 0.0;
     }
     let r = e / (sigma * (1.0 - h).sqrt());
@@ -514,6 +516,10 @@ fn span(v: &[f64]) -> (f64, f64) {
         })
 }
 
+/// A pure curve, its report and (row index, leverage, studentized
+/// residual) of each of its rows.
+type PureFit = (PureCurve, PureReport, Vec<(usize, f64, f64)>);
+
 /// Fits (or takes) the density curve of pure component `i`; returns the
 /// curve, its report and (row index, leverage, studentized residual) of
 /// its rows.
@@ -527,7 +533,7 @@ fn pure_curve(
     mix_temps: usize,
     mix_span: (f64, f64),
     warnings: &mut Vec<String>,
-) -> Result<(PureCurve, PureReport, Vec<(usize, f64, f64)>)> {
+) -> Result<PureFit> {
     let name = &spec.components[i].name;
     let w_pure = if i == 0 { 1.0 } else { 0.0 };
     let idx: Vec<usize> = (0..rows.len()).filter(|&r| rows[r].w == w_pure).collect();

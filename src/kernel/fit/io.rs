@@ -323,7 +323,7 @@ fn build(raw: RawFile) -> Result<FittedMixture> {
             && r.rho_kg_m3.is_finite()
             && r.rho_kg_m3 > 0.0
             && r.t_c.is_finite()
-            && r.u_rho_kg_m3.is_none_or(|u| u.is_finite() && u > 0.0);
+            && r.u_rho_kg_m3.map_or(true, |u| u.is_finite() && u > 0.0);
         if !ok {
             return Err(bad(format!(
                 "provenance row {}: needs 0 <= w <= 1, a positive density, a finite temperature \

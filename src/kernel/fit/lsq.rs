@@ -89,7 +89,9 @@ impl Reduced {
         } else {
             f64::INFINITY
         };
-        if !(condition <= MAX_CONDITION) {
+        // A NaN condition number is refused too.
+        let acceptable = condition <= MAX_CONDITION;
+        if !acceptable {
             return Err(condition);
         }
         let (Some(u), Some(vt)) = (svd.u.as_ref(), svd.v_t.as_ref()) else {
