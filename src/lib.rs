@@ -14,5 +14,7 @@ pub mod kernel;
 pub mod lua;
 #[cfg(feature = "repl")]
 pub mod repl;
+#[cfg(feature = "plot")]
+pub mod plot;
 
 pub use kernel::{Composition, Error, EthanolWater, Mixture, Result, Strength};

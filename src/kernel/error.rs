@@ -110,6 +110,19 @@ pub enum Error {
         /// Its message.
         message: String,
     },
+
+    /// A bad row in the data given to a fit; `row` counts from 1.
+    #[error("fit data row {row}: {message}")]
+    FitRow { row: usize, message: String },
+
+    /// A fit that cannot be made as asked (too few points, rank-deficient
+    /// design, missing pure-component data, …).
+    #[error("cannot fit: {0}")]
+    Fit(String),
+
+    /// A saved fitted model that cannot be read back.
+    #[error("fitted-mixture file: {0}")]
+    SavedModel(String),
 }
 
 impl Error {

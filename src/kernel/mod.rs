@@ -3,6 +3,7 @@
 
 pub mod composition;
 pub mod error;
+pub mod fit;
 pub mod hydrometer;
 pub mod model;
 pub mod oiml;
@@ -14,6 +15,7 @@ pub mod volumetric;
 
 pub use composition::{Composition, Strength};
 pub use error::{Error, Result};
+pub use fit::{fit, Fit, FitReport, FitRow, FitSpec, FittedMixture};
 pub use hydrometer::{HydrometerScale, GLASS_ALPHA};
 pub use model::{Component, Mixture, Validity, T_PROOF_C, T_REF_C};
 pub use oiml::EthanolWater;

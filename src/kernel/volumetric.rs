@@ -102,7 +102,9 @@ pub fn mix_masses<M: Mixture + ?Sized>(m: &M, m1: f64, m2: f64, t: f64) -> Resul
     let t = m.check_t(t)?;
     let total = m1 + m2;
     if total <= 0.0 {
-        return Err(Error::Invalid("nothing to mix: both amounts are zero".into()));
+        return Err(Error::Invalid(
+            "nothing to mix: both amounts are zero".into(),
+        ));
     }
     let w = m.check_w(m1 / total)?;
     let volume = total * 1000.0 / m.rho(w, t);

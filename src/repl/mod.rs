@@ -678,13 +678,6 @@ mod tests {
     }
 
     #[test]
-    fn quoting_survives_hostile_names() {
-        assert_eq!(lua_quote("a.b"), "\"a.b\"");
-        assert_eq!(lua_quote("x\"]]\\\n"), "\"x\\\"]]\\\\\\010\"");
-        assert_eq!(lua_quote("é"), "\"\\195\\169\"");
-    }
-
-    #[test]
     fn error_report_adds_traceback_only_with_trace() {
         let e = HostError {
             message: "x.lua:3: boom".into(),
