@@ -88,7 +88,9 @@ fn main() {
         let t0 = Instant::now();
         let mut acc = 0.0;
         for &w in &ws {
-            let v = model.partial_molar_volumes(black_box(w), 20.0).expect("point");
+            let v = model
+                .partial_molar_volumes(black_box(w), 20.0)
+                .expect("point");
             acc += v[0] + v[1];
         }
         times.push(t0.elapsed());
@@ -102,7 +104,9 @@ fn main() {
         let t0 = Instant::now();
         let mut acc = 0.0;
         for &w in ws.iter().step_by(10) {
-            let v = model.partial_molar_volumes_u(black_box(w), 20.0).expect("point");
+            let v = model
+                .partial_molar_volumes_u(black_box(w), 20.0)
+                .expect("point");
             acc += v[0].u + v[1].u;
         }
         times.push(t0.elapsed());

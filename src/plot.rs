@@ -5,7 +5,8 @@
 //!   temperature, with measured rows drawn as points;
 //! - [`excess_volume_vs_x`]: V^E against mole fraction, curves and rows;
 //! - [`partial_molar_volumes_vs_x`]: V̄₁ and V̄₂ against mole fraction in two
-//!   panels, with a ±2u band when a fitted model is given.
+//!   panels, with tangent-intercept points from data rows and a ±2u band
+//!   when a fitted model is given.
 //!
 //! Every function takes any `&dyn Mixture` (the reference equation as well
 //! as a fitted model). Data rows are drawn only when their temperature is
@@ -17,11 +18,13 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use crate::kernel::composition::{w_from_x, x_from_w};
-use crate::kernel::fit::{FitRow, FittedMixture};
+use crate::kernel::fit::{tangent_intercept, FitRow, FittedMixture};
 use crate::kernel::{Error, Mixture, Result};
 
 /// Rows within this many kelvin of a plotted temperature are drawn with it.
 pub const ROW_T_TOL_C: f64 = 0.05;
+/// Rows in each local regression of the tangent points.
+pub const TANGENT_WINDOW: usize = 7;
 /// Points per plotted curve.
 const SAMPLES: usize = 201;
 
@@ -367,12 +370,16 @@ pub fn excess_volume_vs_x(
 
 /// Partial molar volumes of both components against mole fraction of
 /// component 1 at `t` °C, in two panels (their magnitudes differ). With
+/// `data`, the rows at `t` give model-free points: tangent-intercept values
+/// at each measured composition over its [`TANGENT_WINDOW`] nearest rows
+/// (drawn only when the rows at `t` cover 3 or more compositions). With
 /// `band`, a fitted model, a shaded band of ±2 standard uncertainties of
 /// that model is drawn around its curves (the band belongs to `band`, so
 /// pass the same model as `m` for a fit's own band).
 pub fn partial_molar_volumes_vs_x(
     m: &dyn Mixture,
     t: f64,
+    data: Option<&[FitRow]>,
     band: Option<&FittedMixture>,
     opts: &PlotOptions,
 ) -> Result<String> {
@@ -406,6 +413,24 @@ pub fn partial_molar_volumes_vs_x(
             }
         }
     }
+    let mut points: [Vec<(f64, f64)>; 2] = [Vec::new(), Vec::new()];
+    if let Some(rows) = data {
+        let at_t: Vec<FitRow> = rows
+            .iter()
+            .filter(|r| (r.t - t).abs() <= ROW_T_TOL_C)
+            .copied()
+            .collect();
+        let mut xs_data: Vec<f64> = at_t.iter().map(|r| x_from_w(r.w, m1, m2)).collect();
+        xs_data.sort_by(f64::total_cmp);
+        xs_data.dedup_by(|a, b| (*a - *b).abs() <= 1e-9);
+        if xs_data.len() >= 3 {
+            let comps = m.components();
+            for p in tangent_intercept(&at_t, comps, t, ROW_T_TOL_C, &xs_data, TANGENT_WINDOW)? {
+                points[0].push((p.x, p.v1));
+                points[1].push((p.x, p.v2));
+            }
+        }
+    }
     let title = opts
         .title
         .clone()
@@ -418,26 +443,43 @@ pub fn partial_molar_volumes_vs_x(
         let panels = root.split_evenly((2, 1));
         for (k, panel) in panels.iter().enumerate() {
             let name = &m.components()[k].name;
-            pmv_panel(panel, &curve[k], &bands[k], name, &c1.name, color(k))?;
+            let series = PmvSeries {
+                curve: &curve[k],
+                band: &bands[k],
+                points: &points[k],
+            };
+            pmv_panel(panel, &series, name, &c1.name, color(k))?;
         }
         root.present().map_err(plot_err)?;
     }
     Ok(svg)
 }
 
+/// What one partial-molar-volume panel shows.
+struct PmvSeries<'a> {
+    curve: &'a [(f64, f64)],
+    band: &'a [(f64, f64, f64)],
+    points: &'a [(f64, f64)],
+}
+
 fn pmv_panel(
     area: &DrawingArea<SVGBackend<'_>, Shift>,
-    curve: &[(f64, f64)],
-    band: &[(f64, f64, f64)],
+    series: &PmvSeries<'_>,
     component: &str,
     x_component: &str,
     c: RGBColor,
 ) -> Result<()> {
+    let PmvSeries {
+        curve,
+        band,
+        points,
+    } = *series;
     let (y0, y1) = bounds(
         curve
             .iter()
             .map(|p| p.1)
-            .chain(band.iter().flat_map(|b| [b.1, b.2])),
+            .chain(band.iter().flat_map(|b| [b.1, b.2]))
+            .chain(points.iter().map(|p| p.1)),
     )?;
     let (x0, x1) = bounds(curve.iter().map(|p| p.0))?;
     let mut chart = ChartBuilder::on(area)
@@ -473,9 +515,22 @@ fn pmv_panel(
         .map_err(plot_err)?
         .label(format!("V̄ {component}"))
         .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2)));
+    if !points.is_empty() {
+        chart
+            .draw_series(PointSeries::of_element(
+                points.iter().copied(),
+                3,
+                BLACK,
+                &|p, s, st| EmptyElement::at(p) + Circle::new((0, 0), s, st),
+            ))
+            .map_err(plot_err)?
+            .label("tangent to the data")
+            .legend(|(x, y)| Circle::new((x + 10, y), 3, BLACK));
+    }
     let all: Vec<(f64, f64)> = curve
         .iter()
         .copied()
+        .chain(points.iter().copied())
         .chain(band.iter().flat_map(|b| [(b.0, b.1), (b.0, b.2)]))
         .collect();
     draw_legend(&mut chart, legend_corner(&all, (x0, x1), (y0, y1)))

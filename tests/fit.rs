@@ -919,13 +919,15 @@ mod plots {
         assert!(svg.contains("excess molar volume V^E / (cm³/mol)"));
         save("excess.svg", &svg);
 
-        let svg = partial_molar_volumes_vs_x(&f.model, 20.0, Some(&f.model), &opts).unwrap();
+        let svg =
+            partial_molar_volumes_vs_x(&f.model, 20.0, Some(&rows), Some(&f.model), &opts).unwrap();
         assert!(svg.contains("Partial molar volumes of ethanol-water (fitted) at 20 °C"));
         assert!(svg.contains("partial molar volume of ethanol"));
         assert!(svg.contains("partial molar volume of water"));
         assert!(svg.contains("V̄ water / (cm³/mol)"));
         assert!(svg.contains("±2u band (fit)"));
         assert!(svg.contains("<polygon"));
+        assert!(svg.contains("tangent to the data"));
         save("pmv.svg", &svg);
     }
 
@@ -936,9 +938,14 @@ mod plots {
             title: Some("Reference".into()),
             ..PlotOptions::default()
         };
-        let svg = partial_molar_volumes_vs_x(&ew, 20.0, None, &opts).unwrap();
+        let svg = partial_molar_volumes_vs_x(&ew, 20.0, None, None, &opts).unwrap();
         assert!(svg.contains("Reference"));
         assert!(!svg.contains("<polygon"));
+        assert!(!svg.contains("tangent to the data"));
+        // Rows at another temperature give no tangent points.
+        let rows = reference_rows(0.0, 0);
+        let svg = partial_molar_volumes_vs_x(&ew, 25.0, Some(&rows), None, &opts).unwrap();
+        assert!(!svg.contains("tangent to the data"));
         let svg = density_vs_composition(&ew, &[0.0, 20.0, 40.0], None, &opts).unwrap();
         assert!(svg.contains("model 40 °C"));
         assert!(density_vs_composition(&ew, &[50.0], None, &opts)

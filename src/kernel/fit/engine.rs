@@ -15,7 +15,7 @@ use crate::kernel::error::{Error, Result};
 use crate::kernel::model::{Mixture, Validity};
 
 /// Fits a binary mixture to `rows` as `spec` says. See the module doc of
-/// [`crate::kernel::fit`] for the model, the weights and the AICc rule.
+/// [`crate::kernel::fit`](mod@crate::kernel::fit) for the model, the weights and the AICc rule.
 pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
     check_spec(spec)?;
     let weighted = check_rows(rows)?;

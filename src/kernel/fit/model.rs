@@ -104,7 +104,7 @@ pub struct Provenance {
 }
 
 /// A binary mixture fitted to measured densities (see the module doc of
-/// [`crate::kernel::fit`] for the model). Implements [`Mixture`], so every
+/// [`crate::kernel::fit`](mod@crate::kernel::fit) for the model). Implements [`Mixture`], so every
 /// provided property works on it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FittedMixture {
