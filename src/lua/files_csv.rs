@@ -57,10 +57,12 @@ fn read_options(v: Option<&Value>, func: &str) -> mlua::Result<CsvOptions> {
     let t = match v {
         None | Some(Value::Nil) => return Ok(o),
         Some(Value::Table(t)) => t,
-        Some(other) => return Err(runtime(format!(
+        Some(other) => {
+            return Err(runtime(format!(
             "{func}: options must be a table like {{allow_empty = true, delimiter = ';'}}, got {}",
             describe_value(other)
-        ))),
+        )))
+        }
     };
     t.for_each::<Value, Value>(|k, v| {
         let key = match &k {
@@ -250,18 +252,20 @@ fn write_csv(lua: &Lua, (p, cols, rows): (Value, Value, Value)) -> mlua::Result<
                 Value::Integer(i) if positional => *i >= 1 && (*i as usize) <= names.len(),
                 _ => false,
             };
+            let key = match &k {
+                Value::String(s) => format!("'{}'", s.to_string_lossy()),
+                other => describe_value(other),
+            };
             if ok {
                 Ok(())
             } else if positional {
                 Err(runtime(format!(
-                    "{func}: rows[{r}] is a list but has the key {} (a row is either a list in column order or a table keyed by column name; there are {} columns)",
-                    describe_value(&k),
+                    "{func}: rows[{r}] is a list but has the key {key} (a row is either a list in column order or a table keyed by column name; there are {} columns)",
                     names.len()
                 )))
             } else {
                 Err(runtime(format!(
-                    "{func}: rows[{r}] has the key {}, which is not one of the columns ({})",
-                    describe_value(&k),
+                    "{func}: rows[{r}] has the key {key}, which is not one of the columns ({})",
                     names.join(", ")
                 )))
             }

@@ -551,6 +551,15 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         add_help(lua, name, sig, &doc)?;
         add_keys(lua, name, keys)?;
     }
+    // The mixture overview lists the methods it knows of; name ours there.
+    if let Some(e) = super::help::entry(lua, "mixture") {
+        let doc = format!(
+            "{}\n\nProcess calculations on any mixture: {} (help \"mixture:reduce\" …).",
+            e.doc,
+            METHODS.join(", ")
+        );
+        add_help(lua, "mixture", &e.signature, &doc)?;
+    }
     Ok(())
 }
 
