@@ -344,7 +344,8 @@ fn bottles_match_the_kernel() {
 #[test]
 fn units_match_the_kernel() {
     let h = host();
-    let cases: [(&str, fn(f64) -> f64, f64); 8] = [
+    type Case = (&'static str, fn(f64) -> f64, f64);
+    let cases: [Case; 8] = [
         ("f_to_c", units::f_to_c, 60.0),
         ("c_to_f", units::c_to_f, 15.5),
         ("gal_to_l", units::us_gal_to_l, 53.0),
