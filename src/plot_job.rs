@@ -217,7 +217,7 @@ mod tests {
             series: vec![
                 BarSeries {
                     name: "LPA".into(),
-                    values: vec![120.5, 1480.0],
+                    values: vec![12.5, 1480.0],
                 },
                 BarSeries {
                     name: "water".into(),
@@ -240,7 +240,7 @@ mod tests {
             "LPA",
             "water",
             "1480",
-            "120.5",
+            "12.5",
             "Pure alcohol per tank",
         ] {
             assert!(svg.contains(text), "missing {text}");
