@@ -527,12 +527,9 @@ at 20 °C; t_ref for another reference), proof (US proof) or density (kg/m³,\n\
 measured at t °C — then t is both the density's and the gauging temperature).\n\
 Single numbers only (one lot per call).";
 
-const PROCESS_CAUTION: &str =
-    "Excise, duty and labelling declarations must use the tables, instruments\n\
-and procedures your authority prescribes (e.g. the US gauging tables of\n\
-27 CFR Part 30, the EU/UK official alcoholometric tables and approved\n\
-meters); the reference equation and those tables can differ in the last\n\
-digits. Local regulations and licensed practice take precedence.";
+const PROCESS_CAUTION: &str = "Prescribed tables (e.g. the US gauging tables of 27 CFR Part 30, the EU\n\
+and UK official alcoholometric tables) can differ from the reference\n\
+equation in the last digits; where they are prescribed, they take precedence.";
 
 /// Registers the help of the process methods and tags them, so that
 /// `help(m.reduce)` and completion find them.
