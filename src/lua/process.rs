@@ -527,7 +527,8 @@ at 20 °C; t_ref for another reference), proof (US proof) or density (kg/m³,\n\
 measured at t °C — then t is both the density's and the gauging temperature).\n\
 Single numbers only (one lot per call).";
 
-const PROCESS_CAUTION: &str = "Prescribed tables (e.g. the US gauging tables of 27 CFR Part 30, the EU\n\
+const PROCESS_CAUTION: &str =
+    "Prescribed tables (e.g. the US gauging tables of 27 CFR Part 30, the EU\n\
 and UK official alcoholometric tables) can differ from the reference\n\
 equation in the last digits; where they are prescribed, they take precedence.";
 
