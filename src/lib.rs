@@ -12,9 +12,11 @@ pub mod io;
 pub mod kernel;
 #[cfg(feature = "lua")]
 pub mod lua;
-#[cfg(feature = "repl")]
-pub mod repl;
 #[cfg(feature = "plot")]
 pub mod plot;
+#[cfg(feature = "plot")]
+pub mod plot_job;
+#[cfg(feature = "repl")]
+pub mod repl;
 
 pub use kernel::{Composition, Error, EthanolWater, Mixture, Result, Strength};

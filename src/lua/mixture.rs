@@ -454,6 +454,7 @@ impl UserData for MixtureUd {
             volume_at(lua, &*this.0, &arg)
         });
         methods.add_method("mix", |lua, this, arg: Value| mix(lua, &*this.0, &arg));
+        super::process::add_methods(methods);
         methods.add_method("components", |lua, this, ()| components(lua, &*this.0));
         methods.add_method("validity", |lua, this, ()| validity(lua, &*this.0));
         methods.add_method("name", |_, this, ()| Ok(this.0.name().to_string()));

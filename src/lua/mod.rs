@@ -8,15 +8,20 @@
 //! [`mixture`], [`files`], [`help`], [`format`], [`complete`]. Each Lua
 //! namespace has one `register(lua)`.
 
+#[cfg(feature = "plot")]
+pub mod chart;
 pub mod complete;
 pub mod convert;
 pub mod errors;
 pub mod files;
+pub mod files_csv;
 pub mod format;
 pub mod help;
 pub mod limits;
 pub mod mixture;
+pub mod process;
 pub mod sandbox;
+pub mod units;
 pub mod vector;
 
 use std::cell::RefCell;
@@ -140,6 +145,11 @@ fn build(
     vector::register(&lua)?;
     mixture::register(&lua)?;
     files::register(&lua)?;
+    files_csv::register(&lua)?;
+    process::register(&lua)?;
+    units::register(&lua)?;
+    #[cfg(feature = "plot")]
+    chart::register(&lua)?;
     limits::install_hook(&lua, budget.clone())?;
     lua.set_memory_limit(options.memory_limit + headroom(options.memory_limit))?;
     Ok((lua, budget))
