@@ -12,10 +12,13 @@ pub mod complete;
 pub mod convert;
 pub mod errors;
 pub mod files;
+pub mod fit;
 pub mod format;
 pub mod help;
 pub mod limits;
 pub mod mixture;
+#[cfg(feature = "plot")]
+pub mod plot;
 pub mod sandbox;
 pub mod vector;
 
@@ -140,6 +143,9 @@ fn build(
     vector::register(&lua)?;
     mixture::register(&lua)?;
     files::register(&lua)?;
+    fit::register(&lua)?;
+    #[cfg(feature = "plot")]
+    plot::register(&lua)?;
     limits::install_hook(&lua, budget.clone())?;
     lua.set_memory_limit(options.memory_limit + headroom(options.memory_limit))?;
     Ok((lua, budget))
