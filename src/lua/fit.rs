@@ -21,6 +21,7 @@
 //! the column. A sheet userdata is the natural fourth form: see
 //! [`FitData::from_sheet`] and the hook in `read_data`.
 
+use std::cell::Cell;
 use std::fmt::Write as _;
 use std::sync::Arc;
 
@@ -33,7 +34,7 @@ use super::convert::{
 use super::errors::runtime;
 use super::files;
 use super::help::{add_help, add_keys, entry, tag};
-use super::mixture::{mixture_userdata, MixtureUd, CAUTIONS};
+use super::mixture::{mixture_userdata, MixtureUd};
 use crate::kernel::fit::{
     fit, FitReport, FitRow, FitSpec, FittedMixture, OrderChoice, PureDensity, PureOrigin,
     PureSource, RowBasis, TermChoice, MAX_PURE_COEFFS, MAX_TERMS, MAX_T_ORDER,
@@ -127,7 +128,9 @@ enum Origin {
 /// origin, with errors that name the row and the column.
 pub struct FitData {
     origin: Origin,
-    nrows: usize,
+    /// Known from the start for sheets and rows; for a table of columns,
+    /// the length of the first column read (the others must match it).
+    nrows: Cell<Option<usize>>,
     source: String,
 }
 
@@ -139,20 +142,21 @@ impl FitData {
     pub fn from_sheet(sheet: Sheet, label: impl Into<String>) -> FitData {
         let label = label.into();
         FitData {
-            nrows: sheet.nrows(),
+            nrows: Cell::new(Some(sheet.nrows())),
             source: label.clone(),
             origin: Origin::Sheet { sheet, label },
         }
     }
 
-    /// Number of rows.
+    /// Number of rows (for a table of columns, 0 until a column was
+    /// read).
     pub fn len(&self) -> usize {
-        self.nrows
+        self.nrows.get().unwrap_or(0)
     }
 
     /// Whether there are no rows.
     pub fn is_empty(&self) -> bool {
-        self.nrows == 0
+        self.len() == 0
     }
 
     /// How row `i` (from 0) is named in messages.
@@ -224,6 +228,15 @@ impl FitData {
                         for (i, v) in vals.iter().enumerate() {
                             match v {
                                 kernel::sheet::Value::Number(x) => out.push(*x),
+                                // One bad cell makes the whole CSV column
+                                // text, so the cells that do read as numbers
+                                // are taken as numbers and the first that
+                                // does not is named.
+                                kernel::sheet::Value::Text(s)
+                                    if s.trim().parse::<f64>().is_ok_and(f64::is_finite) =>
+                                {
+                                    out.push(s.trim().parse::<f64>().unwrap_or(f64::NAN))
+                                }
                                 kernel::sheet::Value::Text(s) => {
                                     return Err(runtime(format!(
                                         "{func}: {}, column '{name}' ({role}): expected a number, got the text {:?}",
@@ -248,17 +261,18 @@ impl FitData {
                     return Err(self.unknown(func, role, name));
                 };
                 match numbers(lua, v, func, &format!("data.{name}"))? {
-                    Numbers::Many(x) => {
-                        if x.len() != self.nrows {
-                            return Err(runtime(format!(
-                                "{func}: data.{name} has {} values but the first column used has {}; \
-                                 columns must have the same length",
-                                x.len(),
-                                self.nrows
-                            )));
+                    Numbers::Many(x) => match self.nrows.get() {
+                        None => {
+                            self.nrows.set(Some(x.len()));
+                            Ok(x)
                         }
-                        Ok(x)
-                    }
+                        Some(n) if n != x.len() => Err(runtime(format!(
+                            "{func}: data.{name} has {} values but the first column used has {n}; \
+                             columns must have the same length",
+                            x.len()
+                        ))),
+                        Some(_) => Ok(x),
+                    },
                     Numbers::One(_) => Err(runtime(format!(
                         "{func}: data.{name} must be an array of numbers (a column), got a single number"
                     ))),
@@ -359,7 +373,7 @@ fn read_table(t: &Table, func: &str) -> mlua::Result<FitData> {
         }
         return Ok(FitData {
             origin: Origin::Rows(rows),
-            nrows: n,
+            nrows: Cell::new(Some(n)),
             source: "a Lua table of rows".into(),
         });
     }
@@ -369,28 +383,10 @@ fn read_table(t: &Table, func: &str) -> mlua::Result<FitData> {
         )));
     }
     names.sort_by(|a, b| a.0.cmp(&b.0));
-    // The row count is the length of the first column in name order; the
-    // others are checked against it when read.
-    let mut nrows = 0;
-    for (name, v) in &names {
-        match v {
-            Value::Table(c) => {
-                nrows = c.raw_len();
-                break;
-            }
-            Value::UserData(ud) if ud.is::<super::vector::Vector>() => {
-                nrows = ud.borrow::<super::vector::Vector>()?.len();
-                break;
-            }
-            other => return Err(runtime(format!(
-                "{func}: data.{name} must be a column (an array of numbers or a vector), got {}",
-                describe_value(other)
-            ))),
-        }
-    }
+    // The row count is that of the first column read (see `column`).
     Ok(FitData {
         origin: Origin::Columns(names),
-        nrows,
+        nrows: Cell::new(None),
         source: "a Lua table of columns".into(),
     })
 }
@@ -643,12 +639,12 @@ fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, 
         )));
     };
     let data = read_data(lua, data_v, func)?;
-    if data.is_empty() {
-        return Err(runtime(format!("{func}: the data have no rows")));
-    }
     let comp_col = opt_string(&f, "composition")?.unwrap_or_else(|| basis_name.clone());
     let rho_col = opt_string(&f, "density")?.unwrap_or_else(|| "density".into());
     let comp = data.column(lua, func, "composition", &comp_col)?;
+    if data.is_empty() {
+        return Err(runtime(format!("{func}: the data have no rows")));
+    }
     let rho = data.column(lua, func, "density", &rho_col)?;
     let t: Vec<f64> = match f.get("t") {
         None => data.column(lua, func, "t", "t")?,
@@ -1246,7 +1242,7 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
                  source, date, name: kept with the model and saved with it (source\n\
                  defaults to the CSV path).\n\n\
                  The model: V_m = x V₁*(t) + (1−x) V₂*(t) + x(1−x) Σ A_k(t)(2x−1)^k. Read\n\
-                 m:report() before using the model. {range}\n\n{CAUTIONS}",
+                 m:report() before using the model.\n{range}\n\n{FIT_CAUTION}",
                 FIT_METHODS.join(", ")
             ),
             FIT_KEYS,
@@ -1292,7 +1288,7 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
             format!(
                 "Density with its standard uncertainty from the fit: the coefficient\n\
                  covariance plus the pure curves' uncertainty (taken as uncorrelated).\n\
-                 Composition keys as for m:density; arrays give vectors. {range}\n{FITTED_ONLY}"
+                 Composition keys as for m:density; arrays give vectors.\n{range}\n{FITTED_ONLY}"
             ),
             U_DENSITY_KEYS,
         ),
@@ -1302,7 +1298,7 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
             format!(
                 "Partial molar volumes with standard uncertainties from the fit covariance\n\
                  (exact for the excess part, which is linear in the coefficients) plus the\n\
-                 pure molar volumes' own uncertainty. {range}\n{FITTED_ONLY}"
+                 pure molar volumes' own uncertainty.\n{range}\n{FITTED_ONLY}"
             ),
             U_PROPERTY_KEYS,
         ),
@@ -1311,7 +1307,7 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
             "m:excess_volume_u{abm=…, t=…} → {ve=…, u=…} (cm³/mol)",
             format!(
                 "Excess molar volume with its standard uncertainty from the coefficient\n\
-                 covariance (given the pure curves). {range}\n{FITTED_ONLY}"
+                 covariance (given the pure curves).\n{range}\n{FITTED_ONLY}"
             ),
             U_PROPERTY_KEYS,
         ),
