@@ -471,6 +471,27 @@ fn the_report_reads_well_and_names_its_source() {
 }
 
 #[test]
+fn fit_methods_have_help_and_complete() {
+    let (h, _) = fitted_host();
+    let (_, c) = h.completions("m:rep", 5);
+    assert!(c.contains(&"report".to_string()), "{c:?}");
+    let (_, c) = h.completions("mixture.lo", 10);
+    assert!(c.contains(&"load".to_string()), "{c:?}");
+    let (_, c) = h.completions("m:crosscheck{win", 16);
+    assert!(c.contains(&"window".to_string()), "{c:?}");
+    assert!(text(&h, "tostring(m)").contains("solvent A–water"));
+    eval(&h, "help(m.crosscheck)");
+    assert!(h.take_output().contains("tangent"));
+    assert!(h.help_text("mixture").contains("mixture.fit"));
+    // The reference model is not offered methods it does not have.
+    eval(&h, "r = mixture.ethanol_water()");
+    let (_, c) = h.completions("r:de", 4);
+    assert_eq!(c, vec!["density".to_string(), "describe".to_string()]);
+    let (_, c) = h.completions("m:de", 4);
+    assert!(c.contains(&"density_u".to_string()), "{c:?}");
+}
+
+#[test]
 fn fit_only_methods_refuse_a_mixture_that_was_not_fitted() {
     let h = host();
     eval(&h, "r = mixture.ethanol_water()");
