@@ -821,6 +821,31 @@ fn data_of_the_wrong_shape_is_refused() {
     fails_with(&h, &fit_call("'/etc/passwd'", ""), &["outside"]);
 }
 
+#[test]
+fn the_fit_counts_its_working_memory_against_the_limit() {
+    let h = host_with(HostOptions {
+        memory_limit: 16 * 1024 * 1024,
+        ..HostOptions::default()
+    });
+    // 100 000 rows as vectors (2.4 MB); the fit would work with ~64 MB.
+    eval(
+        &h,
+        "r = mixture.ethanol_water(); w = linspace(0.01, 0.99, 100000); d = r:density{w = w, t = 20}",
+    );
+    let call = "mixture.fit{data = {w = w, density = d}, t = 20, components =                 {{name = 'ethanol', molar_mass = 46.07}, {name = 'water', molar_mass = 18.015}}}";
+    fails_with(
+        &h,
+        call,
+        &["mixture.fit", "not enough memory for 8000000 values"],
+    );
+    // The state is still usable, and a smaller fit goes through.
+    eval(
+        &h,
+        "w = linspace(0, 1, 200); d = r:density{w = w, t = 20};          f = mixture.fit{data = {w = w, density = d}, t = 20, components =          {{name = 'ethanol', molar_mass = 46.07}, {name = 'water', molar_mass = 18.015}}}",
+    );
+    assert_eq!(num(&h, "f:fit_info().rows"), 200.0);
+}
+
 // ---- files ------------------------------------------------------------------
 
 #[test]

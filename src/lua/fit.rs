@@ -66,8 +66,12 @@ pub struct FitInfo {
 }
 
 /// The Lua-invisible holder of a [`FitInfo`] (a user value of the
-/// mixture userdata).
-struct FitUd(Arc<FitInfo>);
+/// mixture userdata), with the model's data rows counted against the
+/// host's memory limit for as long as it lives.
+struct FitUd {
+    info: Arc<FitInfo>,
+    _rows: super::limits::Allocation,
+}
 
 impl UserData for FitUd {}
 
@@ -75,8 +79,17 @@ impl UserData for FitUd {}
 /// `m:…` methods work, and the fit-only ones find the fit.
 pub fn fitted_userdata(lua: &Lua, info: FitInfo) -> mlua::Result<AnyUserData> {
     let model: Arc<dyn Mixture> = info.model.clone();
+    let words = info.model.provenance().rows.len() * KEPT_WORDS_PER_ROW;
+    super::limits::check_alloc(lua, "mixture", words)?;
+    let held = super::limits::Allocation::new(lua, words);
     let ud = mixture_userdata(lua, model)?;
-    ud.set_named_user_value(FIT_KEY, lua.create_userdata(FitUd(Arc::new(info)))?)?;
+    ud.set_named_user_value(
+        FIT_KEY,
+        lua.create_userdata(FitUd {
+            info: Arc::new(info),
+            _rows: held,
+        })?,
+    )?;
     Ok(ud)
 }
 
@@ -92,7 +105,7 @@ fn fit_of_userdata(ud: &AnyUserData) -> Option<Arc<FitInfo>> {
         return None;
     }
     let holder: AnyUserData = ud.named_user_value::<Option<AnyUserData>>(FIT_KEY).ok()??;
-    let info = holder.borrow::<FitUd>().ok()?.0.clone();
+    let info = holder.borrow::<FitUd>().ok()?.info.clone();
     Some(info)
 }
 
@@ -734,8 +747,28 @@ fn fit_error(e: kernel::Error, data: &FitData, func: &str) -> mlua::Error {
     }
 }
 
+/// Most rows one fit takes.
+pub const MAX_FIT_ROWS: usize = 1_000_000;
+/// f64 words the kernel fit works with per row (the widest design matrix,
+/// 16 terms × 3 temperature coefficients, plus per-row vectors), counted
+/// against the host's memory limit while it runs.
+const FIT_WORDS_PER_ROW: usize = 80;
+/// f64 words a fitted model keeps per data row (its provenance).
+const KEPT_WORDS_PER_ROW: usize = 5;
+
 fn do_fit(lua: &Lua, arg: Value) -> mlua::Result<AnyUserData> {
+    let func = "mixture.fit";
     let (spec, rows, data) = read_fit_args(lua, &arg)?;
+    if rows.len() > MAX_FIT_ROWS {
+        return Err(runtime(format!(
+            "{func}: {} rows is more than the {MAX_FIT_ROWS} one fit takes",
+            rows.len()
+        )));
+    }
+    // The kernel's working memory is Rust memory the Lua limit does not
+    // see: check it against the host's limit and hold it while fitting.
+    super::limits::check_alloc(lua, func, rows.len() * FIT_WORDS_PER_ROW)?;
+    let _working = super::limits::Allocation::new(lua, rows.len() * FIT_WORDS_PER_ROW);
     let fitted = fit(&spec, &rows).map_err(|e| fit_error(e, &data, "mixture.fit"))?;
     fitted_userdata(
         lua,
