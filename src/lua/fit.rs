@@ -294,7 +294,7 @@ impl FitData {
             Origin::Rows(rows) => {
                 if !rows
                     .first()
-                    .is_some_and(|r| r.contains_key(name).unwrap_or(false))
+                    .is_some_and(|r| !matches!(r.raw_get::<Value>(name), Ok(Value::Nil) | Err(_)))
                 {
                     return Err(self.unknown(func, role, name));
                 }

@@ -260,8 +260,7 @@ fn excess(lua: &Lua, (m, path, opts): (Value, Value, Value)) -> mlua::Result<()>
 fn pmv(lua: &Lua, (m, path, opts): (Value, Value, Value)) -> mlua::Result<()> {
     let func = "plot.pmv";
     let mut r = read_request(lua, func, &m, &path, &opts, PMV_KEYS)?;
-    let given =
-        matches!(&opts, Value::Table(t) if t.contains_key("t")? || t.contains_key("temperatures")?);
+    let given = matches!(&opts, Value::Table(t) if !t.raw_get::<Value>("t")?.is_nil() || !t.raw_get::<Value>("temperatures")?.is_nil());
     let t = match r.temps.as_slice() {
         [t] => *t,
         _ if !given => {
