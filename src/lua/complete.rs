@@ -135,7 +135,14 @@ fn table_keys(t: &Table, functions_only: bool) -> Vec<String> {
 fn member_candidates(lua: &Lua, path: &str, method: bool) -> Vec<String> {
     match resolve(lua, path) {
         Some(Value::Table(t)) => table_keys(&t, method),
-        Some(Value::UserData(ud)) if ud.is::<MixtureUd>() => methods_of(lua, "mixture"),
+        Some(Value::UserData(ud)) if ud.is::<MixtureUd>() => {
+            let mut names = methods_of(lua, "mixture");
+            // Fit-only methods (m:report, …) only where they work.
+            if super::fit::fit_of(&Value::UserData(ud)).is_none() {
+                names.retain(|n| !super::fit::FIT_METHODS.contains(&n.as_str()));
+            }
+            names
+        }
         Some(Value::UserData(ud)) if ud.is::<Vector>() => methods_of(lua, "vector"),
         Some(Value::String(_)) if method => string_methods(lua),
         _ => Vec::new(),

@@ -459,6 +459,8 @@ impl UserData for MixtureUd {
         methods.add_method("validity", |lua, this, ()| validity(lua, &*this.0));
         methods.add_method("name", |_, this, ()| Ok(this.0.name().to_string()));
         methods.add_method("describe", |_, this, ()| Ok(describe(&*this.0)));
+        // Fit-only methods (report, save, …): see `fit` for how they find the fit.
+        super::fit::add_fit_methods(methods);
         methods.add_meta_method(MetaMethod::ToString, |_, this, ()| {
             Ok(format!("mixture: {}", this.0.name()))
         });

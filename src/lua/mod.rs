@@ -15,11 +15,14 @@ pub mod convert;
 pub mod errors;
 pub mod files;
 pub mod files_csv;
+pub mod fit;
 pub mod format;
 pub mod help;
 pub mod limits;
 pub mod mixture;
 pub mod process;
+#[cfg(feature = "plot")]
+pub mod plot;
 pub mod sandbox;
 pub mod units;
 pub mod vector;
@@ -148,6 +151,9 @@ fn build(
     files_csv::register(&lua)?;
     process::register(&lua)?;
     units::register(&lua)?;
+    fit::register(&lua)?;
+    #[cfg(feature = "plot")]
+    plot::register(&lua)?;
     #[cfg(feature = "plot")]
     chart::register(&lua)?;
     limits::install_hook(&lua, budget.clone())?;
