@@ -331,6 +331,39 @@ fn bulk_over_vectors_with_broadcast_and_strength_fields() {
 }
 
 #[test]
+fn long_density_arrays_agree_with_the_one_point_solve() {
+    // Long arrays at one temperature go through a prepared inverse; it
+    // must agree with the kernel's one-point solve to its tolerance.
+    let h = host();
+    let k = kernel();
+    eval(
+        &h,
+        "rho = linspace(794, 999, 500) s = m:strength{density = rho, t = 15}",
+    );
+    eval(&h, "v1, v2 = m:pmv{density = rho, t = 15}");
+    for i in (1..=500).step_by(7) {
+        let rho = num(&h, &format!("rho[{i}]"));
+        let want = k.strength_from_density(rho, 15.0).unwrap();
+        let w = num(&h, &format!("s.w[{i}]"));
+        assert!((w - want.w).abs() < 1e-11, "w at {rho}: {w} vs {}", want.w);
+        let abv = num(&h, &format!("s.abv[{i}]"));
+        assert!(
+            (abv - want.abv).abs() < 1e-8,
+            "abv at {rho}: {abv} vs {}",
+            want.abv
+        );
+        let pmv = k.partial_molar_volumes(want.w, 15.0).unwrap();
+        let v2 = num(&h, &format!("v2[{i}]"));
+        assert!((v2 - pmv[1]).abs() < 1e-8 * pmv[1].abs(), "pmv at {rho}");
+    }
+    fails_with(
+        &h,
+        "m:strength{density = linspace(700, 990, 100), t = 20}",
+        &["at index 1", "not reachable"],
+    );
+}
+
+#[test]
 fn bulk_errors_name_argument_and_index() {
     let h = host();
     fails_with(

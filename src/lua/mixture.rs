@@ -15,6 +15,7 @@ use super::convert::{
 };
 use super::errors::runtime;
 use super::help::{add_help, add_keys, tag};
+use crate::kernel::bulk::{DensityInverse, StrengthBases};
 use crate::kernel::{self, EthanolWater, HydrometerScale, Mixture, GLASS_ALPHA};
 
 /// The Lua userdata of a mixture model.
@@ -106,10 +107,52 @@ fn table_of<const K: usize>(
     Ok(t)
 }
 
-/// Mass fraction for one element of a composition argument.
+/// Mass fraction for one element of a composition argument. A mass
+/// fraction is passed through unchecked: every consumer (density,
+/// strength, volumetric properties) checks w against the model's range
+/// itself, with the same message.
 #[inline]
 fn w_of(m: &dyn Mixture, basis: Basis, value: f64, t_ref: f64, t_meas: f64) -> kernel::Result<f64> {
-    m.mass_fraction(CompositionArg::composition(basis, value, t_ref, t_meas))
+    match basis {
+        Basis::W => Ok(value),
+        _ => m.mass_fraction(CompositionArg::composition(basis, value, t_ref, t_meas)),
+    }
+}
+
+/// Arrays at least this long that are densities at one temperature go
+/// through the prepared inverse ([`DensityInverse`]), whose set-up costs
+/// about a thousand model evaluations.
+const PREPARED_MIN: usize = 256;
+
+/// The prepared inverse for a density array measured at one temperature.
+fn prepared_inverse<'m>(
+    m: &'m dyn Mixture,
+    c: &CompositionArg,
+    func: &str,
+) -> mlua::Result<Option<DensityInverse<'m, dyn Mixture + 'm>>> {
+    match (c.basis, &c.value, &c.t_meas) {
+        (Basis::Density, Numbers::Many(v), Numbers::One(t)) if v.len() >= PREPARED_MIN => {
+            DensityInverse::new(m, *t)
+                .map(Some)
+                .map_err(|e| runtime(format!("{func}: {e}")))
+        }
+        _ => Ok(None),
+    }
+}
+
+/// Mass fraction of element values (value, t_ref, t_meas), through the
+/// prepared inverse when there is one.
+#[inline]
+fn w_with(
+    m: &dyn Mixture,
+    inv: &Option<DensityInverse<'_, dyn Mixture + '_>>,
+    basis: Basis,
+    x: &[f64],
+) -> kernel::Result<f64> {
+    match inv {
+        Some(inv) => inv.w(x[0]),
+        None => w_of(m, basis, x[0], x[1], x[2]),
+    }
 }
 
 /// Reads a composition plus a property temperature `t` (default 20 °C;
@@ -134,15 +177,16 @@ fn property1(
     keys: &'static [&'static str],
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
 ) -> mlua::Result<Value> {
-    let f = Fields::read(arg, func, keys, "{abv = 40, t = 20}")?;
+    let f = Fields::read(lua, arg, func, keys, "{abv = 40, t = 20}")?;
     let (c, t) = comp_and_t(lua, &f, allow_density)?;
     let basis = c.basis;
+    let inv = prepared_inverse(m, &c, func)?;
     let [out] = bulk(
         lua,
         func,
         &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
         |x| {
-            let w = w_of(m, basis, x[0], x[1], x[2])?;
+            let w = w_with(m, &inv, basis, x)?;
             Ok([prop(m, w, x[2])?])
         },
     )?
@@ -158,15 +202,16 @@ fn property2(
     func: &str,
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<[f64; 2]>,
 ) -> mlua::Result<MultiValue> {
-    let f = Fields::read(arg, func, PROPERTY_KEYS, "{abv = 40, t = 20}")?;
+    let f = Fields::read(lua, arg, func, PROPERTY_KEYS, "{abv = 40, t = 20}")?;
     let (c, t) = comp_and_t(lua, &f, true)?;
     let basis = c.basis;
+    let inv = prepared_inverse(m, &c, func)?;
     let [a, b] = bulk(
         lua,
         func,
         &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
         |x| {
-            let w = w_of(m, basis, x[0], x[1], x[2])?;
+            let w = w_with(m, &inv, basis, x)?;
             prop(m, w, x[2])
         },
     )?
@@ -175,7 +220,7 @@ fn property2(
 }
 
 fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result<Table> {
-    let f = Fields::read(arg, func, STRENGTH_KEYS, "{density = 948.05, t = 20}")?;
+    let f = Fields::read(lua, arg, func, STRENGTH_KEYS, "{density = 948.05, t = 20}")?;
     let c = composition(lua, &f, true)?;
     let basis = c.basis;
     if basis != Basis::Density && f.has("t") {
@@ -212,6 +257,8 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
         .into_values(lua)?;
         return table_of(lua, &STRENGTH_U_FIELDS, vals);
     }
+    let inv = prepared_inverse(m, &c, func)?;
+    let bases = StrengthBases::new(m).map_err(|e| runtime(format!("{func}: {e}")))?;
     let vals = bulk(
         lua,
         func,
@@ -221,7 +268,7 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
             ("t", &c.t_meas),
         ],
         |x| {
-            let s = m.convert(CompositionArg::composition(basis, x[0], x[1], x[2]))?;
+            let s = bases.strength(w_with(m, &inv, basis, x)?)?;
             Ok([s.w, s.abm, s.x, s.abv, s.proof])
         },
     )?
@@ -231,7 +278,7 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
 
 fn hydrometer(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "hydrometer";
-    let f = Fields::read(arg, func, HYDROMETER_KEYS, "{abv = 41.2, t = 24}")?;
+    let f = Fields::read(lua, arg, func, HYDROMETER_KEYS, "{abv = 41.2, t = 24}")?;
     let given = f.present(&["abv", "proof"]);
     let (key, proof) = match given.as_slice() {
         ["abv"] => ("abv", false),
@@ -276,6 +323,7 @@ fn hydrometer(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
 fn volume_at(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
     let func = "volume_at";
     let f = Fields::read(
+        lua,
         arg,
         func,
         VOLUME_AT_KEYS,
@@ -318,7 +366,7 @@ fn volume_at(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
 
 fn mix(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "mix";
-    let f = Fields::read(arg, func, MIX_KEYS, "{v1 = 52, v2 = 48, t = 20}")?;
+    let f = Fields::read(lua, arg, func, MIX_KEYS, "{v1 = 52, v2 = 48, t = 20}")?;
     let by_volume = f.has("v1") || f.has("v2");
     let by_mass = f.has("m1") || f.has("m2");
     if by_volume == by_mass {
