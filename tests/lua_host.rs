@@ -331,6 +331,44 @@ fn bulk_over_vectors_with_broadcast_and_strength_fields() {
 }
 
 #[test]
+fn density_of_mass_fraction_arrays_matches_the_kernel() {
+    let h = host();
+    let k = kernel();
+    eval(
+        &h,
+        "d = m:density{w = linspace(0, 1, 101), t = vec(linspace(-20, 40, 101))}",
+    );
+    eval(&h, "e = m:density{w = linspace(0, 1, 101), t = 25}");
+    for i in 0..=100 {
+        let w = i as f64 / 100.0;
+        let t = -20.0 + 60.0 * i as f64 / 100.0;
+        let got = num(&h, &format!("d[{}]", i + 1));
+        let want = k
+            .density(
+                num(&h, &format!("linspace(0, 1, 101)[{}]", i + 1)),
+                num(&h, &format!("linspace(-20, 40, 101)[{}]", i + 1)),
+            )
+            .unwrap();
+        assert_eq!(got, want, "w {w} t {t}");
+        assert_eq!(
+            num(&h, &format!("e[{}]", i + 1)),
+            k.density(num(&h, &format!("linspace(0, 1, 101)[{}]", i + 1)), 25.0)
+                .unwrap()
+        );
+    }
+    fails_with(
+        &h,
+        "m:density{w = {0.5, 1.5}}",
+        &["at index 2", "mass fraction", "1.5"],
+    );
+    fails_with(
+        &h,
+        "m:density{w = {0.5, 0.6}, t = {20, 50}}",
+        &["at index 2", "temperature", "50"],
+    );
+}
+
+#[test]
 fn long_density_arrays_agree_with_the_one_point_solve() {
     // Long arrays at one temperature go through a prepared inverse; it
     // must agree with the kernel's one-point solve to its tolerance.
@@ -338,10 +376,10 @@ fn long_density_arrays_agree_with_the_one_point_solve() {
     let k = kernel();
     eval(
         &h,
-        "rho = linspace(794, 999, 500) s = m:strength{density = rho, t = 15}",
+        "rho = linspace(794, 999, 5000) s = m:strength{density = rho, t = 15}",
     );
     eval(&h, "v1, v2 = m:pmv{density = rho, t = 15}");
-    for i in (1..=500).step_by(7) {
+    for i in (1..=5000).step_by(37) {
         let rho = num(&h, &format!("rho[{i}]"));
         let want = k.strength_from_density(rho, 15.0).unwrap();
         let w = num(&h, &format!("s.w[{i}]"));
@@ -358,7 +396,7 @@ fn long_density_arrays_agree_with_the_one_point_solve() {
     }
     fails_with(
         &h,
-        "m:strength{density = linspace(700, 990, 100), t = 20}",
+        "m:strength{density = linspace(700, 990, 2000), t = 20}",
         &["at index 1", "not reachable"],
     );
 }

@@ -11,10 +11,12 @@ use std::sync::Arc;
 use mlua::{AnyUserData, Lua, MetaMethod, MultiValue, Table, UserData, UserDataMethods, Value};
 
 use super::convert::{
-    bulk, composition, describe_value, Basis, CompositionArg, Fields, Numbers, COMPOSITION_KEYS,
+    bulk, common_len, composition, describe_value, Basis, CompositionArg, Fields, Numbers,
+    COMPOSITION_KEYS,
 };
 use super::errors::runtime;
 use super::help::{add_help, add_keys, tag};
+use super::limits::check_alloc;
 use crate::kernel::bulk::{DensityInverse, StrengthBases};
 use crate::kernel::{self, EthanolWater, HydrometerScale, Mixture, GLASS_ALPHA};
 
@@ -121,8 +123,8 @@ fn w_of(m: &dyn Mixture, basis: Basis, value: f64, t_ref: f64, t_meas: f64) -> k
 
 /// Arrays at least this long that are densities at one temperature go
 /// through the prepared inverse ([`DensityInverse`]), whose set-up costs
-/// about a thousand model evaluations.
-const PREPARED_MIN: usize = 256;
+/// about three thousand model evaluations.
+const PREPARED_MIN: usize = 1024;
 
 /// The prepared inverse for a density array measured at one temperature.
 fn prepared_inverse<'m>(
@@ -179,12 +181,24 @@ fn property1(
 ) -> mlua::Result<Value> {
     let f = Fields::read(lua, arg, func, keys, "{abv = 40, t = 20}")?;
     let (c, t) = comp_and_t(lua, &f, allow_density)?;
+    property1_parsed(lua, m, func, &c, &t, prop)
+}
+
+/// [`property1`] once the arguments are read.
+fn property1_parsed(
+    lua: &Lua,
+    m: &dyn Mixture,
+    func: &str,
+    c: &CompositionArg,
+    t: &Numbers,
+    prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
+) -> mlua::Result<Value> {
     let basis = c.basis;
-    let inv = prepared_inverse(m, &c, func)?;
+    let inv = prepared_inverse(m, c, func)?;
     let [out] = bulk(
         lua,
         func,
-        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
+        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", t)],
         |x| {
             let w = w_with(m, &inv, basis, x)?;
             Ok([prop(m, w, x[2])?])
@@ -192,6 +206,35 @@ fn property1(
     )?
     .into_values(lua)?;
     Ok(out)
+}
+
+/// `m:density{…}`. Arrays of mass fractions already inside the model's
+/// range take a short cut: the range is checked once for the whole array
+/// and ρ(w, t) evaluated directly (the same values as `Mixture::density`).
+fn density(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
+    let func = "density";
+    let f = Fields::read(lua, arg, func, DENSITY_KEYS, "{abv = 40, t = 20}")?;
+    let (c, t) = comp_and_t(lua, &f, false)?;
+    if c.basis == Basis::W {
+        if let Some(n) = common_len(func, &[("w", &c.value), ("t", &t)])? {
+            let v = m.validity();
+            let within = |x: &Numbers, lo: f64, hi: f64| match x {
+                Numbers::One(a) => *a >= lo && *a <= hi,
+                Numbers::Many(xs) => xs.iter().all(|a| *a >= lo && *a <= hi),
+            };
+            if within(&c.value, v.w_min, v.w_max) && within(&t, v.t_min, v.t_max) {
+                check_alloc(lua, func, n)?;
+                let out: Vec<f64> = match (&c.value, &t) {
+                    (Numbers::Many(ws), Numbers::One(t)) => {
+                        ws.iter().map(|w| m.rho(*w, *t)).collect()
+                    }
+                    (w, t) => (0..n).map(|i| m.rho(w.at(i), t.at(i))).collect(),
+                };
+                return Ok(Value::UserData(super::vector::create(lua, out)?));
+            }
+        }
+    }
+    property1_parsed(lua, m, func, &c, &t, |m, w, t| m.density(w, t))
 }
 
 /// A two-output property of (w, t), e.g. partial molar volumes.
@@ -436,15 +479,7 @@ fn describe(m: &dyn Mixture) -> String {
 impl UserData for MixtureUd {
     fn add_methods<M: UserDataMethods<Self>>(methods: &mut M) {
         methods.add_method("density", |lua, this, arg: Value| {
-            property1(
-                lua,
-                &*this.0,
-                &arg,
-                "density",
-                false,
-                DENSITY_KEYS,
-                |m, w, t| m.density(w, t),
-            )
+            density(lua, &*this.0, &arg)
         });
         methods.add_method("strength", |lua, this, arg: Value| {
             strength(lua, &*this.0, &arg, "strength")
