@@ -7,7 +7,8 @@
 //! - a Lua loop of scalar `m:density{w = …}` calls;
 //! - the cost of the count hook on a plain Lua loop, for several N.
 //!
-//! Each figure is the best of several runs.
+//! Each figure is the best of 11 runs (the machine may be shared: the
+//! minimum is the least disturbed run).
 
 use std::time::{Duration, Instant};
 
@@ -15,7 +16,7 @@ use meniscus::lua::{Host, HostOptions};
 use mlua::{HookTriggers, Lua, VmState};
 
 const N: usize = 1_000_000;
-const RUNS: usize = 5;
+const RUNS: usize = 11;
 
 fn best(mut f: impl FnMut() -> Duration) -> Duration {
     (0..RUNS).map(|_| f()).min().unwrap_or_default()

@@ -302,6 +302,7 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
     }
     let inv = prepared_inverse(m, &c, func)?;
     let bases = StrengthBases::new(m).map_err(|e| runtime(format!("{func}: {e}")))?;
+    let measured_at_20 = inv.is_some() && c.t_meas == Numbers::One(kernel::T_REF_C);
     let vals = bulk(
         lua,
         func,
@@ -311,7 +312,14 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
             ("t", &c.t_meas),
         ],
         |x| {
-            let s = bases.strength(w_with(m, &inv, basis, x)?)?;
+            let w = w_with(m, &inv, basis, x)?;
+            // A density measured at 20 °C is the density at the % vol
+            // reference temperature: no need to evaluate it again.
+            let s = if measured_at_20 {
+                bases.strength_with_rho_20(w, x[0])?
+            } else {
+                bases.strength(w)?
+            };
             Ok([s.w, s.abm, s.x, s.abv, s.proof])
         },
     )?
