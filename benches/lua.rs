@@ -7,8 +7,9 @@
 //! - a Lua loop of scalar `m:density{w = …}` calls;
 //! - the cost of the count hook on a plain Lua loop, for several N.
 //!
-//! Each figure is the best of 11 runs (the machine may be shared: the
-//! minimum is the least disturbed run).
+//! Each figure is the best of 11 runs of the time this thread spent on a
+//! CPU (from /proc/thread-self/schedstat on Linux, so time the thread
+//! waited for a shared CPU is not counted; wall-clock time elsewhere).
 
 use std::time::{Duration, Instant};
 
@@ -22,12 +23,28 @@ fn best(mut f: impl FnMut() -> Duration) -> Duration {
     (0..RUNS).map(|_| f()).min().unwrap_or_default()
 }
 
-fn timed(h: &Host, src: &str) -> Duration {
-    let t0 = Instant::now();
-    if let Err(e) = h.eval(src, "=bench") {
-        panic!("{src}: {}", e.message);
+/// Nanoseconds this thread has run on a CPU, where the OS says.
+fn cpu_ns() -> Option<u64> {
+    let s = std::fs::read_to_string("/proc/thread-self/schedstat").ok()?;
+    s.split_whitespace().next()?.parse().ok()
+}
+
+/// Time of `f`: CPU time of this thread where available, else wall time.
+fn measure(f: impl FnOnce()) -> Duration {
+    let (c0, t0) = (cpu_ns(), Instant::now());
+    f();
+    match (c0, cpu_ns()) {
+        (Some(a), Some(b)) => Duration::from_nanos(b.saturating_sub(a)),
+        _ => t0.elapsed(),
     }
-    t0.elapsed()
+}
+
+fn timed(h: &Host, src: &str) -> Duration {
+    measure(|| {
+        if let Err(e) = h.eval(src, "=bench") {
+            panic!("{src}: {}", e.message);
+        }
+    })
 }
 
 fn ns_per(d: Duration, n: usize) -> f64 {
@@ -35,6 +52,14 @@ fn ns_per(d: Duration, n: usize) -> f64 {
 }
 
 fn main() {
+    println!(
+        "timing: {}",
+        if cpu_ns().is_some() {
+            "CPU time of the benchmark thread"
+        } else {
+            "wall-clock time"
+        }
+    );
     let h = Host::new(HostOptions::default()).expect("host");
     h.eval("m = mixture.ethanol_water()", "=bench")
         .expect("setup");
@@ -129,11 +154,7 @@ fn main() {
             })
             .expect("hook");
         }
-        let d = best(|| {
-            let t0 = Instant::now();
-            lua.load(loop_src).exec().expect("loop");
-            t0.elapsed()
-        });
+        let d = best(|| measure(|| lua.load(loop_src).exec().expect("loop")));
         let label = match every {
             None => "no hook".to_string(),
             Some(n) => format!("hook every {n}"),

@@ -395,7 +395,10 @@ fn long_density_arrays_agree_with_the_one_point_solve() {
         assert!((v2 - pmv[1]).abs() < 1e-8 * pmv[1].abs(), "pmv at {rho}");
     }
     // At 20 °C (the % vol reference) the measured density is reused.
-    eval(&h, "rho = linspace(790, 998, 5000) s20 = m:strength{density = rho, t = 20}");
+    eval(
+        &h,
+        "rho = linspace(790, 998, 5000) s20 = m:strength{density = rho, t = 20}",
+    );
     for i in (1..=5000).step_by(41) {
         let rho = num(&h, &format!("rho[{i}]"));
         let want = k.strength_from_density(rho, 20.0).unwrap();
