@@ -492,7 +492,11 @@ fn composition_errors_are_clear() {
     );
     fails_with(&h, "m:density{w = 0.5, t = 80}", &["temperature", "80"]);
     fails_with(&h, "m:strength{density = 500, t = 20}", &["not reachable"]);
-    fails_with(&h, "m.density{abv = 40}", &["density"]);
+    fails_with(
+        &h,
+        "m.density{abv = 40}",
+        &["density", "colon", "m:density"],
+    );
 }
 
 #[test]
@@ -691,7 +695,24 @@ fn help_covers_every_function() {
         let (k, v) = pair.unwrap();
         if v.is_function() && !standard.contains(&k.as_str()) {
             assert!(has(&k), "global function {k} has no help");
+            // help(value) finds it too.
+            eval(&h, &format!("help({k})"));
+            let out = h.take_output();
+            assert!(!out.contains("no help"), "help({k}): {out}");
         }
+    }
+    for f in [
+        "mixture.ethanol_water",
+        "files.read",
+        "files.write",
+        "files.exists",
+        "m.density",
+        "m.pmv",
+        "m.mix",
+    ] {
+        eval(&h, &format!("help({f})"));
+        let out = h.take_output();
+        assert!(!out.contains("no help"), "help({f}): {out}");
     }
 }
 
