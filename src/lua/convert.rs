@@ -566,6 +566,53 @@ impl<'f> Fields<'f> {
         }
     }
 
+    /// The common case of a composition call, read straight from the
+    /// slots: every given key is a finite number, exactly one of them a
+    /// composition key, `t_ref` only with `abv`, `t` present for a density,
+    /// and no key besides the composition, `t` and `t_ref`. Returns
+    /// (basis, value, t_ref, t) or `None`, in which case [`composition`]
+    /// reads the arguments in full (and reports what is wrong). `allowed`
+    /// must begin with [`COMPOSITION_KEYS`].
+    pub fn scalar_composition(&self, allow_density: bool) -> Option<(Basis, f64, f64, f64)> {
+        if self.allowed.len() < 6 || self.allowed[..6] != COMPOSITION_KEYS {
+            return None;
+        }
+        let mut found = None;
+        let (mut t, mut t_ref) = (None, None);
+        for (p, slot) in self.slots[..self.allowed.len()].iter().enumerate() {
+            let x = match slot {
+                Slot::Absent => continue,
+                Slot::Num(x) if x.is_finite() => *x,
+                _ => return None,
+            };
+            if p < 6 {
+                if found.is_some() || (p == 5 && !allow_density) {
+                    return None;
+                }
+                found = Some((BASES[p], x));
+            } else {
+                match self.allowed[p] {
+                    "t" => t = Some(x),
+                    "t_ref" => t_ref = Some(x),
+                    _ => return None,
+                }
+            }
+        }
+        let (basis, value) = found?;
+        if t_ref.is_some() && basis != Basis::Abv {
+            return None;
+        }
+        if basis == Basis::Density && t.is_none() {
+            return None;
+        }
+        Some((
+            basis,
+            value,
+            t_ref.unwrap_or(kernel::T_REF_C),
+            t.unwrap_or(kernel::T_REF_C),
+        ))
+    }
+
     /// A numeric argument with a default.
     pub fn numbers_or(&self, lua: &Lua, key: &str, default: f64) -> mlua::Result<Numbers> {
         Ok(self.numbers(lua, key)?.unwrap_or(Numbers::One(default)))

@@ -180,6 +180,14 @@ fn property1(
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
 ) -> mlua::Result<Value> {
     let f = Fields::read(lua, arg, func, keys, "{abv = 40, t = 20}")?;
+    if let Some((basis, value, t_ref, t)) = f.scalar_composition(allow_density) {
+        // For a density, t is both its measurement temperature and the
+        // temperature of the property.
+        let r = w_of(m, basis, value, t_ref, t).and_then(|w| prop(m, w, t));
+        return r
+            .map(Value::Number)
+            .map_err(|e| runtime(format!("{func}: {e}")));
+    }
     let (c, t) = comp_and_t(lua, &f, allow_density)?;
     property1_parsed(lua, m, func, &c, &t, prop)
 }
@@ -214,6 +222,12 @@ fn property1_parsed(
 fn density(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
     let func = "density";
     let f = Fields::read(lua, arg, func, DENSITY_KEYS, "{abv = 40, t = 20}")?;
+    if let Some((basis, value, t_ref, t)) = f.scalar_composition(false) {
+        let rho = w_of(m, basis, value, t_ref, t).and_then(|w| m.density(w, t));
+        return rho
+            .map(Value::Number)
+            .map_err(|e| runtime(format!("{func}: {e}")));
+    }
     let (c, t) = comp_and_t(lua, &f, false)?;
     if c.basis == Basis::W {
         if let Some(n) = common_len(func, &[("w", &c.value), ("t", &t)])? {
