@@ -1046,6 +1046,61 @@ fn loops_in_coroutines_are_stopped() {
 }
 
 #[test]
+fn finalizers_are_refused_and_close_handlers_are_stopped() {
+    // Lua runs __gc with hooks off: a looping finalizer could never be
+    // stopped, so scripts may not set one.
+    let h = quick_timeout();
+    fails_with(
+        &h,
+        "setmetatable({}, {__gc = function() while true do end end})",
+        &["__gc"],
+    );
+    fails_with(&h, "setmetatable({}, {__gc = true})", &["__gc"]);
+    // Adding __gc afterwards does not mark the object: nothing runs.
+    assert_eq!(
+        num(
+            &h,
+            "local mt = {} local x = setmetatable({}, mt) \
+             mt.__gc = function() while true do end end x = nil \
+             for i = 1, 1e5 do local t = {} end return 3"
+        ),
+        3.0
+    );
+    stops_in_time(
+        &h,
+        "do local x <close> = setmetatable({}, {__close = function() while true do end end}) end",
+    );
+    fails_with(
+        &h,
+        "setmetatable(1, {})",
+        &["setmetatable", "table", "number"],
+    );
+    assert_eq!(num(&h, "setmetatable({}, {__index = {a = 4}}).a"), 4.0);
+}
+
+#[test]
+fn lua_code_outside_an_evaluation_is_stopped() {
+    // Lua code run by the host's own work (or by an embedder calling the
+    // state directly) with no evaluation going on is stopped at the first
+    // hook check instead of running unbounded.
+    let h = quick_timeout();
+    let f: mlua::Function = h
+        .lua()
+        .load("return function() while true do end end")
+        .eval()
+        .unwrap();
+    let e = f.call::<()>(()).unwrap_err();
+    assert!(e.to_string().contains("outside an evaluation"), "{e}");
+    // Host::run applies the evaluation's limits to Rust code calling Lua.
+    let e = h.run(|_| f.call::<()>(())).unwrap_err();
+    assert!(e.message.contains("time limit"), "{}", e.message);
+    assert_eq!(
+        h.run(|lua| lua.load("return 6 * 7").eval::<i64>()).unwrap(),
+        42
+    );
+}
+
+#[test]
 fn interrupt_flag_stops_the_evaluation() {
     let h = host();
     let flag = h.interrupt_handle();
