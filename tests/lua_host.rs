@@ -3,6 +3,8 @@
 //! help, display, completion, and every applicable row of the reliability
 //! checklist (sandbox, limits, hostile input, file access).
 
+#![cfg(feature = "lua")]
+
 use std::path::{Path, PathBuf};
 use std::sync::atomic::Ordering;
 use std::time::{Duration, Instant};
