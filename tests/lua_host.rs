@@ -471,6 +471,23 @@ fn composition_errors_are_clear() {
     fails_with(&h, "m:density(40)", &["density", "table", "number"]);
     fails_with(&h, "m:density{abw = 40}", &["unknown key", "abw"]);
     fails_with(&h, "m:density{40}", &["unknown key", "[1]"]);
+    // Every unknown key lists the accepted ones; a key that is not a
+    // string is described, not quoted as if it were a name.
+    fails_with(
+        &h,
+        "m:density{40}",
+        &["unknown key [1]; give values by name", "(accepted: w, abm"],
+    );
+    fails_with(
+        &h,
+        "m:density{[true] = 40}",
+        &["unknown key boolean true (accepted: w, abm"],
+    );
+    fails_with(
+        &h,
+        "m:density{abw = 40}",
+        &["unknown key 'abw' (accepted: w, abm"],
+    );
     fails_with(&h, "m:density{density = 950, t = 20}", &["one of the keys"]);
     fails_with(&h, "m:strength{density = 950}", &["t is required"]);
     fails_with(&h, "m:convert{abv = 40, t = 15}", &["t_ref"]);

@@ -446,9 +446,10 @@ impl<'f> Fields<'f> {
                     match allowed.iter().position(|a| a.as_bytes() == key) {
                         Some(p) => Some(p),
                         None => {
-                            issue = Some(ScanIssue::UnknownKey(
-                                String::from_utf8_lossy(key).into_owned(),
-                            ));
+                            issue = Some(ScanIssue::UnknownKey(format!(
+                                "'{}'",
+                                String::from_utf8_lossy(key)
+                            )));
                             None
                         }
                     }
@@ -482,11 +483,12 @@ impl<'f> Fields<'f> {
                 slots,
             }),
             Some(ScanIssue::UnknownKey(k)) => Err(runtime(format!(
-                "{func}: unknown key '{k}' (accepted: {})",
+                "{func}: unknown key {k} (accepted: {})",
                 allowed.join(", ")
             ))),
             Some(ScanIssue::IntegerKey(i)) => Err(runtime(format!(
-                "{func}: unknown key [{i}]; give values by name, like {example}"
+                "{func}: unknown key [{i}]; give values by name, like {example} (accepted: {})",
+                allowed.join(", ")
             ))),
             Some(_) => Err(runtime(format!("{func}: cannot read the arguments"))),
         }

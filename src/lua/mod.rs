@@ -20,9 +20,9 @@ pub mod format;
 pub mod help;
 pub mod limits;
 pub mod mixture;
-pub mod process;
 #[cfg(feature = "plot")]
 pub mod plot;
+pub mod process;
 pub mod sandbox;
 pub mod units;
 pub mod vector;
