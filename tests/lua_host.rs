@@ -3,6 +3,8 @@
 //! help, display, completion, and every applicable row of the reliability
 //! checklist (sandbox, limits, hostile input, file access).
 
+#![cfg(feature = "lua")]
+
 use std::path::{Path, PathBuf};
 use std::sync::atomic::Ordering;
 use std::time::{Duration, Instant};
@@ -331,6 +333,94 @@ fn bulk_over_vectors_with_broadcast_and_strength_fields() {
 }
 
 #[test]
+fn density_of_mass_fraction_arrays_matches_the_kernel() {
+    let h = host();
+    let k = kernel();
+    eval(
+        &h,
+        "d = m:density{w = linspace(0, 1, 101), t = vec(linspace(-20, 40, 101))}",
+    );
+    eval(&h, "e = m:density{w = linspace(0, 1, 101), t = 25}");
+    for i in 0..=100 {
+        let w = i as f64 / 100.0;
+        let t = -20.0 + 60.0 * i as f64 / 100.0;
+        let got = num(&h, &format!("d[{}]", i + 1));
+        let want = k
+            .density(
+                num(&h, &format!("linspace(0, 1, 101)[{}]", i + 1)),
+                num(&h, &format!("linspace(-20, 40, 101)[{}]", i + 1)),
+            )
+            .unwrap();
+        assert_eq!(got, want, "w {w} t {t}");
+        assert_eq!(
+            num(&h, &format!("e[{}]", i + 1)),
+            k.density(num(&h, &format!("linspace(0, 1, 101)[{}]", i + 1)), 25.0)
+                .unwrap()
+        );
+    }
+    fails_with(
+        &h,
+        "m:density{w = {0.5, 1.5}}",
+        &["at index 2", "mass fraction", "1.5"],
+    );
+    fails_with(
+        &h,
+        "m:density{w = {0.5, 0.6}, t = {20, 50}}",
+        &["at index 2", "temperature", "50"],
+    );
+}
+
+#[test]
+fn long_density_arrays_agree_with_the_one_point_solve() {
+    // Long arrays at one temperature go through a prepared inverse; it
+    // must agree with the kernel's one-point solve to its tolerance.
+    let h = host();
+    let k = kernel();
+    eval(
+        &h,
+        "rho = linspace(794, 999, 5000) s = m:strength{density = rho, t = 15}",
+    );
+    eval(&h, "v1, v2 = m:pmv{density = rho, t = 15}");
+    for i in (1..=5000).step_by(37) {
+        let rho = num(&h, &format!("rho[{i}]"));
+        let want = k.strength_from_density(rho, 15.0).unwrap();
+        let w = num(&h, &format!("s.w[{i}]"));
+        assert!((w - want.w).abs() < 1e-11, "w at {rho}: {w} vs {}", want.w);
+        let abv = num(&h, &format!("s.abv[{i}]"));
+        assert!(
+            (abv - want.abv).abs() < 1e-8,
+            "abv at {rho}: {abv} vs {}",
+            want.abv
+        );
+        let pmv = k.partial_molar_volumes(want.w, 15.0).unwrap();
+        let v2 = num(&h, &format!("v2[{i}]"));
+        assert!((v2 - pmv[1]).abs() < 1e-8 * pmv[1].abs(), "pmv at {rho}");
+    }
+    // At 20 °C (the % vol reference) the measured density is reused.
+    eval(
+        &h,
+        "rho = linspace(790, 998, 5000) s20 = m:strength{density = rho, t = 20}",
+    );
+    for i in (1..=5000).step_by(41) {
+        let rho = num(&h, &format!("rho[{i}]"));
+        let want = k.strength_from_density(rho, 20.0).unwrap();
+        let abv = num(&h, &format!("s20.abv[{i}]"));
+        assert!(
+            (abv - want.abv).abs() < 1e-8,
+            "abv at {rho}: {abv} vs {}",
+            want.abv
+        );
+        let proof = num(&h, &format!("s20.proof[{i}]"));
+        assert!((proof - want.proof).abs() < 2e-8, "proof at {rho}");
+    }
+    fails_with(
+        &h,
+        "m:strength{density = linspace(700, 990, 2000), t = 20}",
+        &["at index 1", "not reachable"],
+    );
+}
+
+#[test]
 fn bulk_errors_name_argument_and_index() {
     let h = host();
     fails_with(
@@ -381,6 +471,23 @@ fn composition_errors_are_clear() {
     fails_with(&h, "m:density(40)", &["density", "table", "number"]);
     fails_with(&h, "m:density{abw = 40}", &["unknown key", "abw"]);
     fails_with(&h, "m:density{40}", &["unknown key", "[1]"]);
+    // Every unknown key lists the accepted ones; a key that is not a
+    // string is described, not quoted as if it were a name.
+    fails_with(
+        &h,
+        "m:density{40}",
+        &["unknown key [1]; give values by name", "(accepted: w, abm"],
+    );
+    fails_with(
+        &h,
+        "m:density{[true] = 40}",
+        &["unknown key boolean true (accepted: w, abm"],
+    );
+    fails_with(
+        &h,
+        "m:density{abw = 40}",
+        &["unknown key 'abw' (accepted: w, abm"],
+    );
     fails_with(&h, "m:density{density = 950, t = 20}", &["one of the keys"]);
     fails_with(&h, "m:strength{density = 950}", &["t is required"]);
     fails_with(&h, "m:convert{abv = 40, t = 15}", &["t_ref"]);
@@ -404,7 +511,11 @@ fn composition_errors_are_clear() {
     );
     fails_with(&h, "m:density{w = 0.5, t = 80}", &["temperature", "80"]);
     fails_with(&h, "m:strength{density = 500, t = 20}", &["not reachable"]);
-    fails_with(&h, "m.density{abv = 40}", &["density"]);
+    fails_with(
+        &h,
+        "m.density{abv = 40}",
+        &["density", "colon", "m:density"],
+    );
 }
 
 #[test]
@@ -603,7 +714,24 @@ fn help_covers_every_function() {
         let (k, v) = pair.unwrap();
         if v.is_function() && !standard.contains(&k.as_str()) {
             assert!(has(&k), "global function {k} has no help");
+            // help(value) finds it too.
+            eval(&h, &format!("help({k})"));
+            let out = h.take_output();
+            assert!(!out.contains("no help"), "help({k}): {out}");
         }
+    }
+    for f in [
+        "mixture.ethanol_water",
+        "files.read",
+        "files.write",
+        "files.exists",
+        "m.density",
+        "m.pmv",
+        "m.mix",
+    ] {
+        eval(&h, &format!("help({f})"));
+        let out = h.take_output();
+        assert!(!out.contains("no help"), "help({f}): {out}");
     }
 }
 
@@ -933,6 +1061,61 @@ fn loops_in_coroutines_are_stopped() {
     stops_in_time(
         &h,
         "while true do coroutine.resume(coroutine.create(function() while true do end end)) end",
+    );
+}
+
+#[test]
+fn finalizers_are_refused_and_close_handlers_are_stopped() {
+    // Lua runs __gc with hooks off: a looping finalizer could never be
+    // stopped, so scripts may not set one.
+    let h = quick_timeout();
+    fails_with(
+        &h,
+        "setmetatable({}, {__gc = function() while true do end end})",
+        &["__gc"],
+    );
+    fails_with(&h, "setmetatable({}, {__gc = true})", &["__gc"]);
+    // Adding __gc afterwards does not mark the object: nothing runs.
+    assert_eq!(
+        num(
+            &h,
+            "local mt = {} local x = setmetatable({}, mt) \
+             mt.__gc = function() while true do end end x = nil \
+             for i = 1, 1e5 do local t = {} end return 3"
+        ),
+        3.0
+    );
+    stops_in_time(
+        &h,
+        "do local x <close> = setmetatable({}, {__close = function() while true do end end}) end",
+    );
+    fails_with(
+        &h,
+        "setmetatable(1, {})",
+        &["setmetatable", "table", "number"],
+    );
+    assert_eq!(num(&h, "setmetatable({}, {__index = {a = 4}}).a"), 4.0);
+}
+
+#[test]
+fn lua_code_outside_an_evaluation_is_stopped() {
+    // Lua code run by the host's own work (or by an embedder calling the
+    // state directly) with no evaluation going on is stopped at the first
+    // hook check instead of running unbounded.
+    let h = quick_timeout();
+    let f: mlua::Function = h
+        .lua()
+        .load("return function() while true do end end")
+        .eval()
+        .unwrap();
+    let e = f.call::<()>(()).unwrap_err();
+    assert!(e.to_string().contains("outside an evaluation"), "{e}");
+    // Host::run applies the evaluation's limits to Rust code calling Lua.
+    let e = h.run(|_| f.call::<()>(())).unwrap_err();
+    assert!(e.message.contains("time limit"), "{}", e.message);
+    assert_eq!(
+        h.run(|lua| lua.load("return 6 * 7").eval::<i64>()).unwrap(),
+        42
     );
 }
 

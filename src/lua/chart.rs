@@ -68,7 +68,7 @@ fn list<T>(
 }
 
 fn size(f: &Fields, key: &str, default: u32) -> mlua::Result<u32> {
-    match opt_number(f.get(key), f.func(), key)? {
+    match opt_number(f.get(key)?.as_ref(), f.func(), key)? {
         None => Ok(default),
         Some(x) if x.fract() == 0.0 && (0.0..=100_000.0).contains(&x) => Ok(x as u32),
         Some(x) => Err(runtime(format!(
@@ -90,45 +90,54 @@ fn bars(lua: &Lua, (p, opts): (Value, Value)) -> mlua::Result<()> {
         }
     };
     let f = Fields::read(
+        lua,
         &opts,
         func,
         BARS_KEYS,
         "{categories = {'T01', 'T02'}, series = {{name = 'LPA', values = {120, 340}}}}",
     )?;
     let categories = list(
-        f.get("categories"),
+        f.get("categories")?.as_ref(),
         func,
         "categories",
         MAX_CATEGORIES,
         |i, v| text(Some(&v), func, &format!("categories[{i}]")).map(|s| s.unwrap_or_default()),
     )?;
-    let series = list(f.get("series"), func, "series", MAX_SERIES, |i, v| {
-        let name = format!("{func}: series[{i}]");
-        let sf = Fields::read(
-            &v,
-            &name,
-            SERIES_KEYS,
-            "{name = 'LPA', values = {120, 340}}",
-        )?;
-        let label = text(sf.get("name"), &name, "name")?.unwrap_or_else(|| format!("series {i}"));
-        let values = match sf.get("values") {
-            Some(v) => numbers(lua, v, &name, "values")?,
-            None => return Err(runtime(format!("{name}: values is required"))),
-        };
-        let values = match values {
-            Numbers::Many(v) => v,
-            Numbers::One(x) => vec![x],
-        };
-        Ok(BarSeries {
-            name: label,
-            values,
-        })
-    })?;
+    let series = list(
+        f.get("series")?.as_ref(),
+        func,
+        "series",
+        MAX_SERIES,
+        |i, v| {
+            let name = format!("{func}: series[{i}]");
+            let sf = Fields::read(
+                lua,
+                &v,
+                &name,
+                SERIES_KEYS,
+                "{name = 'LPA', values = {120, 340}}",
+            )?;
+            let label = text(sf.get("name")?.as_ref(), &name, "name")?
+                .unwrap_or_else(|| format!("series {i}"));
+            let values = match sf.get("values")?.as_ref() {
+                Some(v) => numbers(lua, v, &name, "values")?,
+                None => return Err(runtime(format!("{name}: values is required"))),
+            };
+            let values = match values {
+                Numbers::Many(v) => v,
+                Numbers::One(x) => vec![x],
+            };
+            Ok(BarSeries {
+                name: label,
+                values,
+            })
+        },
+    )?;
     let chart = BarChart {
-        title: text(f.get("title"), func, "title")?.unwrap_or_default(),
+        title: text(f.get("title")?.as_ref(), func, "title")?.unwrap_or_default(),
         categories,
         series,
-        y_label: text(f.get("y_label"), func, "y_label")?.unwrap_or_default(),
+        y_label: text(f.get("y_label")?.as_ref(), func, "y_label")?.unwrap_or_default(),
         width: size(&f, "width", 900)?,
         height: size(&f, "height", 520)?,
     };

@@ -10,7 +10,7 @@
 //! Keyword tables (`{abv = 40, t = 20}`) are read by [`Fields`], which
 //! refuses unknown keys so that a typo is not silently ignored.
 
-use mlua::{Lua, Table, Value};
+use mlua::{ffi, Lua, Table, Value};
 
 use super::errors::runtime;
 use super::limits;
@@ -123,62 +123,72 @@ fn check_finite(data: &[f64], func: &str, arg: &str) -> mlua::Result<()> {
     }
 }
 
-/// A Lua sequence of finite numbers as a `Vec`, checked in one pass over
-/// the table: every key must be an integer 1..n (n the table's length) and
-/// every value a finite number, and all n must be present.
+/// A Lua sequence of finite numbers as a `Vec`, checked in one raw pass
+/// over the table: every key must be an integer 1..n (n the table's
+/// length), every value a finite number (not a string), and all n present.
 pub fn table_numbers(lua: &Lua, t: &Table, func: &str, arg: &str) -> mlua::Result<Vec<f64>> {
     let n = t.raw_len();
     limits::check_alloc(lua, func, n)?;
-    // NaN marks "not yet seen": NaN values themselves are refused below.
+    // NaN marks "not yet seen": NaN values themselves are refused.
     let mut data = vec![f64::NAN; n];
     let mut count = 0usize;
-    t.for_each::<Value, Value>(|k, v| {
-        let i = match k {
-            Value::Integer(i) if i >= 1 && (i as u64) <= n as u64 => i as usize,
-            Value::Integer(i) if i >= 1 => {
-                let hole = data
-                    .iter()
-                    .position(|x| x.is_nan())
-                    .map_or(n + 1, |p| p + 1);
-                return Err(runtime(format!(
-                    "{func}: {arg}[{hole}] is nil: the array has a hole before index {i}"
-                )));
+    let mut issue: Option<ScanIssue> = None;
+    // SAFETY (of the raw calls): as in `Fields::read`; indexing checked.
+    scan_table(lua, t, |state, tix| unsafe {
+        ffi::lua_pushnil(state);
+        while ffi::lua_next(state, tix) != 0 {
+            // The common case in few API calls; anything unusual is
+            // classified by `classify_element` on the way out.
+            let mut isnum = 0;
+            let ok = ffi::lua_type(state, -2) == ffi::LUA_TNUMBER && {
+                let k = ffi::lua_tointegerx(state, -2, &mut isnum);
+                isnum != 0
+                    && ffi::lua_type(state, -1) == ffi::LUA_TNUMBER
+                    && match data.get_mut((k as usize).wrapping_sub(1)) {
+                        Some(slot) => {
+                            let x = ffi::lua_tonumberx(state, -1, std::ptr::null_mut());
+                            *slot = x;
+                            x.is_finite()
+                        }
+                        None => false,
+                    }
+            };
+            if !ok {
+                issue = Some(classify_element(state, n));
+                break;
             }
-            other => {
-                let key = match &other {
-                    Value::String(s) => format!("'{}'", s.to_string_lossy()),
-                    v => super::format::format_nested(lua, v),
-                };
-                return Err(runtime(format!(
-                    "{func}: {arg} must be an array of numbers, but it has the key {key}"
-                )));
-            }
-        };
-        data[i - 1] = match v {
-            Value::Integer(x) => x as f64,
-            Value::Number(x) if x.is_finite() => x,
-            Value::Number(x) => {
-                return Err(runtime(format!(
-                    "{func}: {arg}[{i}] must be a finite number, got {x}"
-                )))
-            }
-            other => {
-                return Err(runtime(format!(
-                    "{func}: {arg}[{i}] must be a number, got {}",
-                    describe_value(&other)
-                )))
-            }
-        };
-        count += 1;
-        Ok(())
+            count += 1;
+            ffi::lua_settop(state, -2);
+        }
     })?;
-    if count != n {
-        let hole = data.iter().position(|x| x.is_nan()).map_or(0, |p| p + 1);
-        return Err(runtime(format!(
-            "{func}: {arg}[{hole}] is nil: the array has a hole"
-        )));
+    let first_hole = |data: &[f64]| {
+        data.iter()
+            .position(|x| x.is_nan())
+            .map_or(n + 1, |p| p + 1)
+    };
+    match issue {
+        None if count == n => Ok(data),
+        None => Err(runtime(format!(
+            "{func}: {arg}[{}] is nil: the array has a hole",
+            first_hole(&data)
+        ))),
+        Some(ScanIssue::Beyond { key }) => Err(runtime(format!(
+            "{func}: {arg}[{}] is nil: the array has a hole before index {key}",
+            first_hole(&data)
+        ))),
+        Some(ScanIssue::UnknownKey(k)) => Err(runtime(format!(
+            "{func}: {arg} must be an array of numbers, but it has the key {k}"
+        ))),
+        Some(ScanIssue::IntegerKey(k)) => Err(runtime(format!(
+            "{func}: {arg} must be an array of numbers, but it has the key [{k}]"
+        ))),
+        Some(ScanIssue::NotFinite { index, value }) => Err(runtime(format!(
+            "{func}: {arg}[{index}] must be a finite number, got {value}"
+        ))),
+        Some(ScanIssue::NotNumber { index, got }) => Err(runtime(format!(
+            "{func}: {arg}[{index}] must be a number, got {got}"
+        ))),
     }
-    Ok(data)
 }
 
 /// The common length of array arguments (`None` when all are scalars);
@@ -264,79 +274,247 @@ pub fn bulk<const K: usize>(
     }
 }
 
-/// The named arguments of a keyword-table call such as
-/// `m:density{abv = 40, t = 20}`, checked against the keys the function
-/// accepts.
-#[derive(Debug)]
-pub struct Fields {
-    func: String,
-    allowed: &'static [&'static str],
-    values: Vec<Option<Value>>,
+/// Most keys a keyword table may accept.
+pub const MAX_FIELDS: usize = 16;
+
+/// What a keyword table holds under one accepted key.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Slot {
+    Absent,
+    /// A number (possibly NaN or infinite: checked when used).
+    Num(f64),
+    /// Anything else: fetched from the table when used.
+    Other,
 }
 
-impl Fields {
-    /// Reads `v`, which must be a table whose keys are all in `allowed`;
-    /// `example` shows a correct call in the error for a non-table.
+/// The named arguments of a keyword-table call such as
+/// `m:density{abv = 40, t = 20}`, checked against the keys the function
+/// accepts. The table is read in one raw pass; numbers are kept as they
+/// are and other values (arrays, vectors, wrong types) fetched when asked
+/// for, so a scalar call allocates nothing.
+#[derive(Debug)]
+pub struct Fields<'f> {
+    func: &'f str,
+    allowed: &'static [&'static str],
+    table: Table,
+    slots: [Slot; MAX_FIELDS],
+}
+
+/// Why a raw table scan stopped.
+enum ScanIssue {
+    UnknownKey(String),
+    IntegerKey(i64),
+    NotNumber { index: usize, got: String },
+    NotFinite { index: usize, value: f64 },
+    Beyond { key: i64 },
+}
+
+/// Runs `f` with `t` pushed on the running thread's Lua stack (`f` gets
+/// the state and the table's absolute index) and restores the stack.
+///
+/// This reads tables without the protected call (`lua_pcall`) that
+/// `Lua::exec_raw` and `Table::for_each` make, which costs more than the
+/// scan itself for a small keyword table. It relies on `f` calling only
+/// Lua API functions that cannot raise an error: `lua_next` given back the
+/// key it returned, `lua_type`, `lua_to*` on values of the right type, and
+/// `lua_pop`. `exec_raw_lua` is mlua 0.12's (doc-hidden) raw access: check
+/// it on upgrade (see reliability.md).
+fn scan_table<R>(
+    lua: &Lua,
+    t: &Table,
+    f: impl FnOnce(*mut ffi::lua_State, std::os::raw::c_int) -> R,
+) -> mlua::Result<R> {
+    lua.exec_raw_lua(|raw| {
+        let state = raw.state();
+        // SAFETY: `state` is the live state of the locked Lua; the stack
+        // is checked for room, and put back to its height whatever `f`
+        // leaves on it.
+        unsafe {
+            let top = ffi::lua_gettop(state);
+            if ffi::lua_checkstack(state, 4) == 0 {
+                return Err(runtime("Lua stack exhausted"));
+            }
+            raw.push(t)?;
+            let idx = ffi::lua_gettop(state);
+            let r = f(state, idx);
+            ffi::lua_settop(state, top);
+            Ok(r)
+        }
+    })
+}
+
+/// Describes the value at `idx` of the Lua stack without converting it.
+///
+/// # Safety
+/// `idx` must be a valid index of `state`'s stack.
+unsafe fn describe_raw(state: *mut ffi::lua_State, idx: std::os::raw::c_int) -> String {
+    match ffi::lua_type(state, idx) {
+        ffi::LUA_TNIL => "nil".into(),
+        ffi::LUA_TBOOLEAN => format!("boolean {}", ffi::lua_toboolean(state, idx) != 0),
+        ffi::LUA_TNUMBER => format!(
+            "number {}",
+            ffi::lua_tonumberx(state, idx, std::ptr::null_mut())
+        ),
+        ffi::LUA_TSTRING => {
+            let mut len = 0usize;
+            let p = ffi::lua_tolstring(state, idx, &mut len);
+            if p.is_null() || len > 24 {
+                "a string".into()
+            } else {
+                let b = std::slice::from_raw_parts(p as *const u8, len);
+                format!("string {}", super::format::quote(b))
+            }
+        }
+        t => {
+            let name = ffi::lua_typename(state, t);
+            if name.is_null() {
+                "a value".into()
+            } else {
+                format!("a {}", std::ffi::CStr::from_ptr(name).to_string_lossy())
+            }
+        }
+    }
+}
+
+/// Why the table entry on top of the stack (key at -2, value at -1) is
+/// not element of an n-long array of finite numbers.
+///
+/// # Safety
+/// The stack must hold a key and a value from `lua_next`.
+#[cold]
+unsafe fn classify_element(state: *mut ffi::lua_State, n: usize) -> ScanIssue {
+    if ffi::lua_isinteger(state, -2) == 0 {
+        return ScanIssue::UnknownKey(if ffi::lua_type(state, -2) == ffi::LUA_TSTRING {
+            let mut len = 0usize;
+            let p = ffi::lua_tolstring(state, -2, &mut len);
+            let b = std::slice::from_raw_parts(p as *const u8, len);
+            format!("'{}'", String::from_utf8_lossy(b))
+        } else {
+            describe_raw(state, -2)
+        });
+    }
+    let key = ffi::lua_tointegerx(state, -2, std::ptr::null_mut());
+    if key < 1 {
+        return ScanIssue::IntegerKey(key);
+    }
+    if key as u64 > n as u64 {
+        return ScanIssue::Beyond { key };
+    }
+    if ffi::lua_type(state, -1) == ffi::LUA_TNUMBER {
+        ScanIssue::NotFinite {
+            index: key as usize,
+            value: ffi::lua_tonumberx(state, -1, std::ptr::null_mut()),
+        }
+    } else {
+        ScanIssue::NotNumber {
+            index: key as usize,
+            got: describe_raw(state, -1),
+        }
+    }
+}
+
+impl<'f> Fields<'f> {
+    /// Reads `v`, which must be a table whose keys are all in `allowed`
+    /// (at most [`MAX_FIELDS`]); `example` shows a correct call in the
+    /// error for a non-table or an unknown key.
     pub fn read(
+        lua: &Lua,
         v: &Value,
-        func: &str,
+        func: &'f str,
         allowed: &'static [&'static str],
         example: &str,
-    ) -> mlua::Result<Fields> {
+    ) -> mlua::Result<Fields<'f>> {
+        assert!(allowed.len() <= MAX_FIELDS, "Fields: too many keys");
         let Value::Table(t) = v else {
             return Err(runtime(format!(
                 "{func}: expected a table of named values like {example}, got {}",
                 describe_value(v)
             )));
         };
-        let mut values: Vec<Option<Value>> = vec![None; allowed.len()];
-        t.for_each::<Value, Value>(|k, v| {
-            let pos = match &k {
-                Value::String(s) => {
-                    let b = s.as_bytes();
-                    allowed.iter().position(|a| a.as_bytes() == &*b)
-                }
-                _ => None,
-            };
-            match pos {
-                Some(p) => {
-                    values[p] = Some(v);
-                    Ok(())
-                }
-                None => Err(runtime(format!(
-                    "{func}: unknown key {} (accepted: {})",
-                    match &k {
-                        Value::String(s) => format!("'{}'", s.to_string_lossy()),
-                        Value::Integer(i) => {
-                            format!("[{i}]; give values by name, like {example}")
+        let mut slots = [Slot::Absent; MAX_FIELDS];
+        let mut issue: Option<ScanIssue> = None;
+        // SAFETY (of the raw calls): only non-raising API calls; lua_next
+        // is given back the key it returned; lua_tolstring is applied to
+        // string keys only, so it never converts a key in place.
+        scan_table(lua, t, |state, tix| unsafe {
+            ffi::lua_pushnil(state);
+            while ffi::lua_next(state, tix) != 0 {
+                let pos = if ffi::lua_type(state, -2) == ffi::LUA_TSTRING {
+                    let mut len = 0usize;
+                    let p = ffi::lua_tolstring(state, -2, &mut len);
+                    let key = std::slice::from_raw_parts(p as *const u8, len);
+                    match allowed.iter().position(|a| a.as_bytes() == key) {
+                        Some(p) => Some(p),
+                        None => {
+                            issue = Some(ScanIssue::UnknownKey(format!(
+                                "'{}'",
+                                String::from_utf8_lossy(key)
+                            )));
+                            None
                         }
-                        other => describe_value(other),
-                    },
-                    allowed.join(", ")
-                ))),
+                    }
+                } else {
+                    issue = Some(if ffi::lua_isinteger(state, -2) != 0 {
+                        ScanIssue::IntegerKey(ffi::lua_tointegerx(state, -2, std::ptr::null_mut()))
+                    } else {
+                        ScanIssue::UnknownKey(describe_raw(state, -2))
+                    });
+                    None
+                };
+                let Some(pos) = pos else {
+                    break;
+                };
+                let slot = if ffi::lua_type(state, -1) == ffi::LUA_TNUMBER {
+                    Slot::Num(ffi::lua_tonumberx(state, -1, std::ptr::null_mut()))
+                } else {
+                    Slot::Other
+                };
+                if let Some(s) = slots.get_mut(pos) {
+                    *s = slot;
+                }
+                ffi::lua_pop(state, 1);
             }
         })?;
-        Ok(Fields {
-            func: func.to_string(),
-            allowed,
-            values,
-        })
+        match issue {
+            None => Ok(Fields {
+                func,
+                allowed,
+                table: t.clone(),
+                slots,
+            }),
+            Some(ScanIssue::UnknownKey(k)) => Err(runtime(format!(
+                "{func}: unknown key {k} (accepted: {})",
+                allowed.join(", ")
+            ))),
+            Some(ScanIssue::IntegerKey(i)) => Err(runtime(format!(
+                "{func}: unknown key [{i}]; give values by name, like {example} (accepted: {})",
+                allowed.join(", ")
+            ))),
+            Some(_) => Err(runtime(format!("{func}: cannot read the arguments"))),
+        }
     }
 
     /// The function name used in messages.
     pub fn func(&self) -> &str {
-        &self.func
+        self.func
     }
 
-    /// The value given for `key`, if any (`key` must be an accepted key).
-    pub fn get(&self, key: &str) -> Option<&Value> {
-        let p = self.allowed.iter().position(|a| *a == key)?;
-        self.values[p].as_ref()
+    fn pos(&self, key: &str) -> Option<usize> {
+        self.allowed.iter().position(|a| *a == key)
     }
 
     /// Whether `key` was given.
     pub fn has(&self, key: &str) -> bool {
-        self.get(key).is_some()
+        self.pos(key).is_some_and(|p| self.slots[p] != Slot::Absent)
+    }
+
+    /// The value given for `key`, if any.
+    pub fn get(&self, key: &str) -> mlua::Result<Option<Value>> {
+        match self.pos(key).map(|p| self.slots[p]) {
+            None | Some(Slot::Absent) => Ok(None),
+            Some(Slot::Num(x)) => Ok(Some(Value::Number(x))),
+            Some(Slot::Other) => self.table.raw_get::<Value>(key).map(Some),
+        }
     }
 
     /// The given keys among `keys`, in the order of `keys`.
@@ -344,12 +522,97 @@ impl Fields {
         keys.iter().copied().filter(|k| self.has(k)).collect()
     }
 
+    /// How many of `keys` were given, and the first of them.
+    pub fn count_present<'k>(&self, keys: &[&'k str]) -> (usize, Option<&'k str>) {
+        let mut n = 0;
+        let mut first = None;
+        for k in keys {
+            if self.has(k) {
+                n += 1;
+                first.get_or_insert(*k);
+            }
+        }
+        (n, first)
+    }
+
     /// A numeric argument (number, array or vector), if given.
     pub fn numbers(&self, lua: &Lua, key: &str) -> mlua::Result<Option<Numbers>> {
-        match self.get(key) {
+        match self.pos(key) {
+            Some(p) => self.numbers_at(lua, p),
             None => Ok(None),
-            Some(v) => numbers(lua, v, &self.func, key).map(Some),
         }
+    }
+
+    /// The accepted keys that were given, as (position, key).
+    fn given(&self) -> impl Iterator<Item = (usize, &'static str)> + '_ {
+        self.allowed
+            .iter()
+            .enumerate()
+            .filter(|(p, _)| self.slots[*p] != Slot::Absent)
+            .map(|(p, k)| (p, *k))
+    }
+
+    fn numbers_at(&self, lua: &Lua, p: usize) -> mlua::Result<Option<Numbers>> {
+        let key = self.allowed[p];
+        match self.slots[p] {
+            Slot::Absent => Ok(None),
+            Slot::Num(x) if x.is_finite() => Ok(Some(Numbers::One(x))),
+            Slot::Num(x) => Err(runtime(format!(
+                "{}: {key} must be a finite number, got {x}",
+                self.func
+            ))),
+            Slot::Other => {
+                let v: Value = self.table.raw_get(key)?;
+                numbers(lua, &v, self.func, key).map(Some)
+            }
+        }
+    }
+
+    /// The common case of a composition call, read straight from the
+    /// slots: every given key is a finite number, exactly one of them a
+    /// composition key, `t_ref` only with `abv`, `t` present for a density,
+    /// and no key besides the composition, `t` and `t_ref`. Returns
+    /// (basis, value, t_ref, t) or `None`, in which case [`composition`]
+    /// reads the arguments in full (and reports what is wrong). `allowed`
+    /// must begin with [`COMPOSITION_KEYS`].
+    pub fn scalar_composition(&self, allow_density: bool) -> Option<(Basis, f64, f64, f64)> {
+        if self.allowed.len() < 6 || self.allowed[..6] != COMPOSITION_KEYS {
+            return None;
+        }
+        let mut found = None;
+        let (mut t, mut t_ref) = (None, None);
+        for (p, slot) in self.slots[..self.allowed.len()].iter().enumerate() {
+            let x = match slot {
+                Slot::Absent => continue,
+                Slot::Num(x) if x.is_finite() => *x,
+                _ => return None,
+            };
+            if p < 6 {
+                if found.is_some() || (p == 5 && !allow_density) {
+                    return None;
+                }
+                found = Some((BASES[p], x));
+            } else {
+                match self.allowed[p] {
+                    "t" => t = Some(x),
+                    "t_ref" => t_ref = Some(x),
+                    _ => return None,
+                }
+            }
+        }
+        let (basis, value) = found?;
+        if t_ref.is_some() && basis != Basis::Abv {
+            return None;
+        }
+        if basis == Basis::Density && t.is_none() {
+            return None;
+        }
+        Some((
+            basis,
+            value,
+            t_ref.unwrap_or(kernel::T_REF_C),
+            t.unwrap_or(kernel::T_REF_C),
+        ))
     }
 
     /// A numeric argument with a default.
@@ -441,10 +704,18 @@ pub fn composition(
     } else {
         &COMPOSITION_KEYS[..5]
     };
-    let given = fields.present(keys);
-    let key = match given.as_slice() {
-        [k] => *k,
-        [] => {
+    // One pass over the keys given (usually one or two).
+    let mut count = 0;
+    let mut found: Option<(usize, usize)> = None;
+    for (p, k) in fields.given() {
+        if let Some(b) = keys.iter().position(|c| *c == k) {
+            count += 1;
+            found.get_or_insert((p, b));
+        }
+    }
+    let (pos, b) = match (count, found) {
+        (1, Some(f)) => f,
+        (0, _) => {
             let also = if fields.has("density") && !allow_density {
                 " (a density is not accepted here)"
             } else {
@@ -455,22 +726,26 @@ pub fn composition(
                 keys.join(", ")
             )));
         }
-        many => {
+        (n, _) => {
             return Err(runtime(format!(
-                "{func}: give exactly one composition key, got {} ({})",
-                many.len(),
-                many.join(", ")
+                "{func}: give exactly one composition key, got {n} ({})",
+                fields.present(keys).join(", ")
             )))
         }
     };
-    let basis = BASES[COMPOSITION_KEYS.iter().position(|k| *k == key).unwrap_or(0)];
-    let value = fields.required(lua, key, "the composition")?;
-    if fields.has("t_ref") && basis != Basis::Abv {
-        return Err(runtime(format!(
-            "{func}: t_ref (the reference temperature of % vol) only goes with abv"
-        )));
-    }
-    let t_ref = fields.numbers_or(lua, "t_ref", kernel::T_REF_C)?;
+    let basis = BASES[b];
+    let value = fields
+        .numbers_at(lua, pos)?
+        .ok_or_else(|| runtime(format!("{func}: the composition is missing")))?;
+    let t_ref = match fields.numbers(lua, "t_ref")? {
+        Some(_) if basis != Basis::Abv => {
+            return Err(runtime(format!(
+                "{func}: t_ref (the reference temperature of % vol) only goes with abv"
+            )))
+        }
+        Some(t) => t,
+        None => Numbers::One(kernel::T_REF_C),
+    };
     let t_meas = if basis == Basis::Density {
         fields.required(
             lua,

@@ -59,6 +59,16 @@ fn root_message(e: &Error, tb: &mut Option<String>) -> String {
         Error::SyntaxError { message, .. } => split_traceback(message, tb),
         Error::MemoryError(_) => "not enough memory".to_string(),
         Error::BadArgument {
+            to: Some(to),
+            name: Some(name),
+            ..
+        } if name == "self" => {
+            // `m.density{…}` instead of `m:density{…}`: mlua names the
+            // method `Type.method`.
+            let method = to.rsplit('.').next().unwrap_or(to);
+            format!("{method}: call it as a method, with a colon: m:{method}(…)")
+        }
+        Error::BadArgument {
             to,
             pos,
             name,

@@ -428,7 +428,7 @@ const FIT_EXAMPLE: &str = "{data = \"lab.csv\", basis = \"abm\", composition = \
 t = \"t_c\", components = {{name = \"2-propanol\", molar_mass = 60.096}, {name = \"water\", molar_mass = 18.015}}}";
 
 fn opt_string(f: &Fields, key: &str) -> mlua::Result<Option<String>> {
-    match f.get(key) {
+    match f.get(key)?.as_ref() {
         None | Some(Value::Nil) => Ok(None),
         Some(Value::String(s)) => Ok(Some(s.to_str()?.to_string())),
         Some(other) => Err(runtime(format!(
@@ -466,7 +466,7 @@ fn auto_or_int(
     }
 }
 
-fn read_components(v: Option<&Value>, func: &str) -> mlua::Result<[Component; 2]> {
+fn read_components(lua: &Lua, v: Option<&Value>, func: &str) -> mlua::Result<[Component; 2]> {
     let hint = "components must be two tables {name = …, molar_mass = …} (g/mol), the component \
                 whose composition is given first";
     let Some(Value::Table(t)) = v else {
@@ -491,16 +491,18 @@ fn read_components(v: Option<&Value>, func: &str) -> mlua::Result<[Component; 2]
                 describe_value(&c)
             )));
         };
+        let fname = format!("{func}: components[{i}]");
         let f = Fields::read(
+            lua,
             &Value::Table(c),
-            &format!("{func}: components[{i}]"),
+            &fname,
             &["name", "molar_mass"],
             "{name = \"water\", molar_mass = 18.015}",
         )?;
         let name = opt_string(&f, "name")?
             .filter(|s| !s.trim().is_empty())
             .ok_or_else(|| runtime(format!("{func}: components[{i}] needs a name")))?;
-        let mm = match f.get("molar_mass") {
+        let mm = match f.get("molar_mass")?.as_ref() {
             Some(v) => number(v, &format!("{func}: components[{i}]"), "molar_mass")?,
             None => {
                 return Err(runtime(format!(
@@ -542,14 +544,16 @@ fn read_pure_one(lua: &Lua, v: &Value, func: &str, what: &str) -> mlua::Result<P
             Ok(PureSource::Given(PureDensity::constant(rho)))
         }
         Value::Table(_) => {
+            let fname = format!("{func}: {what}");
             let f = Fields::read(
+                lua,
                 v,
-                &format!("{func}: {what}"),
+                &fname,
                 &["t0", "coefficients"],
                 "{t0 = 20, coefficients = {998.2, -0.21, -0.0045}}",
             )?;
-            let t0 = opt_number(f.get("t0"), func, &format!("{what}.t0"))?.unwrap_or(20.0);
-            let c = match f.get("coefficients") {
+            let t0 = opt_number(f.get("t0")?.as_ref(), func, &format!("{what}.t0"))?.unwrap_or(20.0);
+            let c = match f.get("coefficients")?.as_ref() {
                 Some(Value::Table(c)) => super::convert::table_numbers(
                     lua,
                     c,
@@ -633,8 +637,8 @@ fn read_pure(
 /// Reads the arguments of `mixture.fit` into a spec and rows.
 fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, FitData)> {
     let func = "mixture.fit";
-    let f = Fields::read(arg, func, FIT_KEYS, FIT_EXAMPLE)?;
-    let components = read_components(f.get("components"), func)?;
+    let f = Fields::read(lua, arg, func, FIT_KEYS, FIT_EXAMPLE)?;
+    let components = read_components(lua, f.get("components")?.as_ref(), func)?;
     let basis_name = opt_string(&f, "basis")?.unwrap_or_else(|| "w".into());
     let basis = match basis_name.as_str() {
         "w" => RowBasis::W,
@@ -646,12 +650,12 @@ fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, 
             )))
         }
     };
-    let Some(data_v) = f.get("data") else {
+    let Some(data_v) = f.get("data")? else {
         return Err(runtime(format!(
             "{func}: data is required (a CSV path, a table of rows or a table of columns)"
         )));
     };
-    let data = read_data(lua, data_v, func)?;
+    let data = read_data(lua, &data_v, func)?;
     let comp_col = opt_string(&f, "composition")?.unwrap_or_else(|| basis_name.clone());
     let rho_col = opt_string(&f, "density")?.unwrap_or_else(|| "density".into());
     let comp = data.column(lua, func, "composition", &comp_col)?;
@@ -659,7 +663,7 @@ fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, 
         return Err(runtime(format!("{func}: the data have no rows")));
     }
     let rho = data.column(lua, func, "density", &rho_col)?;
-    let t: Vec<f64> = match f.get("t") {
+    let t: Vec<f64> = match f.get("t")?.as_ref() {
         None => data.column(lua, func, "t", "t")?,
         Some(Value::String(s)) => {
             let name = s.to_str()?.to_string();
@@ -723,16 +727,16 @@ fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, 
     let name = opt_string(&f, "name")?
         .unwrap_or_else(|| format!("{}–{}", components[0].name, components[1].name));
     let mut spec = FitSpec::new(name, components.clone());
-    spec.terms = match auto_or_int(f.get("terms"), func, "terms", 1, MAX_TERMS)? {
+    spec.terms = match auto_or_int(f.get("terms")?.as_ref(), func, "terms", 1, MAX_TERMS)? {
         None => spec.terms,
         Some(n) => TermChoice::Fixed(n),
     };
-    spec.t_order = match auto_or_int(f.get("t_order"), func, "t_order", 0, MAX_T_ORDER)? {
+    spec.t_order = match auto_or_int(f.get("t_order")?.as_ref(), func, "t_order", 0, MAX_T_ORDER)? {
         None => OrderChoice::Auto,
         Some(q) => OrderChoice::Fixed(q),
     };
-    spec.pure = read_pure(lua, f.get("pure"), func, &components)?;
-    spec.t_center = opt_number(f.get("t_center"), func, "t_center")?;
+    spec.pure = read_pure(lua, f.get("pure")?.as_ref(), func, &components)?;
+    spec.t_center = opt_number(f.get("t_center")?.as_ref(), func, "t_center")?;
     spec.source = opt_string(&f, "source")?.unwrap_or_else(|| data.source.clone());
     spec.date = opt_string(&f, "date")?.unwrap_or_default();
     Ok((spec, rows, data))
@@ -921,7 +925,7 @@ fn estimate<const K: usize>(
     allow_density: bool,
     prop: impl Fn(&FittedMixture, f64, f64) -> kernel::Result<[f64; K]>,
 ) -> mlua::Result<[Value; K]> {
-    let f = Fields::read(arg, func, keys, "{abm = 40, t = 25}")?;
+    let f = Fields::read(lua, arg, func, keys, "{abm = 40, t = 25}")?;
     let c = composition(lua, &f, allow_density)?;
     let t = if c.basis == Basis::Density {
         c.t_meas.clone()
@@ -956,7 +960,13 @@ fn seq(lua: &Lua, xs: impl IntoIterator<Item = f64>) -> mlua::Result<Table> {
 
 fn crosscheck(lua: &Lua, info: &FitInfo, arg: &Value) -> mlua::Result<Table> {
     let func = "crosscheck";
-    let f = Fields::read(arg, func, CROSSCHECK_KEYS, "{x = {0.1, 0.3, 0.5}, t = 25}")?;
+    let f = Fields::read(
+        lua,
+        arg,
+        func,
+        CROSSCHECK_KEYS,
+        "{x = {0.1, 0.3, 0.5}, t = 25}",
+    )?;
     let xs = match f.numbers(lua, "x")? {
         Some(Numbers::One(x)) => vec![x],
         Some(Numbers::Many(v)) => v,
@@ -966,7 +976,7 @@ fn crosscheck(lua: &Lua, info: &FitInfo, arg: &Value) -> mlua::Result<Table> {
             )))
         }
     };
-    let t = match opt_number(f.get("t"), func, "t")? {
+    let t = match opt_number(f.get("t")?.as_ref(), func, "t")? {
         Some(t) => t,
         None => {
             return Err(runtime(format!(
@@ -974,8 +984,8 @@ fn crosscheck(lua: &Lua, info: &FitInfo, arg: &Value) -> mlua::Result<Table> {
             )))
         }
     };
-    let t_tol = opt_number(f.get("t_tol"), func, "t_tol")?.unwrap_or(CROSSCHECK_T_TOL_C);
-    let window = match opt_number(f.get("window"), func, "window")? {
+    let t_tol = opt_number(f.get("t_tol")?.as_ref(), func, "t_tol")?.unwrap_or(CROSSCHECK_T_TOL_C);
+    let window = match opt_number(f.get("window")?.as_ref(), func, "window")? {
         None => CROSSCHECK_WINDOW,
         Some(w) if w.fract() == 0.0 && (3.0..=10_000.0).contains(&w) => w as usize,
         Some(w) => {

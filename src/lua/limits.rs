@@ -34,6 +34,9 @@ pub enum Stop {
     Timeout(Duration),
     /// The interrupt flag (Ctrl-C) was raised.
     Interrupted,
+    /// Lua code ran with no evaluation going on (a `__gc` finalizer run by
+    /// the host's own work or when the state is closed).
+    Idle,
 }
 
 impl std::fmt::Display for Stop {
@@ -41,6 +44,7 @@ impl std::fmt::Display for Stop {
         match self {
             Stop::Timeout(d) => write!(f, "time limit of {} exceeded", fmt_duration(*d)),
             Stop::Interrupted => write!(f, "interrupted"),
+            Stop::Idle => write!(f, "Lua code outside an evaluation stopped"),
         }
     }
 }
@@ -70,15 +74,22 @@ pub struct Budget {
 }
 
 impl Budget {
-    /// A budget watching `interrupt`, with no evaluation running.
+    /// A budget watching `interrupt`, with no evaluation running: until
+    /// one begins, any Lua code is stopped at the hook's first check (so
+    /// a finalizer that loops cannot hang the host, e.g. when it closes
+    /// the state).
     pub fn new(interrupt: Arc<AtomicBool>) -> Self {
         Budget {
             deadline: Cell::new(None),
             timeout: Cell::new(None),
-            stopped: RefCell::new(None),
+            stopped: RefCell::new(Some(Self::idle())),
             interrupt,
             depth: Cell::new(0),
         }
+    }
+
+    fn idle() -> (Stop, String) {
+        (Stop::Idle, Stop::Idle.to_string())
     }
 
     /// Starts an evaluation: clears the interrupt flag and any earlier stop,
@@ -103,7 +114,8 @@ impl Budget {
             return self.stopped.borrow().as_ref().map(|(_, m)| m.clone());
         }
         self.deadline.set(None);
-        self.stopped.borrow_mut().take().map(|(_, m)| m)
+        let stop = self.stopped.borrow_mut().replace(Self::idle());
+        stop.map(|(_, m)| m)
     }
 
     /// The stop message, if the running evaluation has been stopped.

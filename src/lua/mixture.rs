@@ -11,10 +11,13 @@ use std::sync::Arc;
 use mlua::{AnyUserData, Lua, MetaMethod, MultiValue, Table, UserData, UserDataMethods, Value};
 
 use super::convert::{
-    bulk, composition, describe_value, Basis, CompositionArg, Fields, Numbers, COMPOSITION_KEYS,
+    bulk, common_len, composition, describe_value, Basis, CompositionArg, Fields, Numbers,
+    COMPOSITION_KEYS,
 };
 use super::errors::runtime;
 use super::help::{add_help, add_keys, tag};
+use super::limits::check_alloc;
+use crate::kernel::bulk::{DensityInverse, StrengthBases};
 use crate::kernel::{self, EthanolWater, HydrometerScale, Mixture, GLASS_ALPHA};
 
 /// The Lua userdata of a mixture model.
@@ -106,10 +109,52 @@ fn table_of<const K: usize>(
     Ok(t)
 }
 
-/// Mass fraction for one element of a composition argument.
+/// Mass fraction for one element of a composition argument. A mass
+/// fraction is passed through unchecked: every consumer (density,
+/// strength, volumetric properties) checks w against the model's range
+/// itself, with the same message.
 #[inline]
 fn w_of(m: &dyn Mixture, basis: Basis, value: f64, t_ref: f64, t_meas: f64) -> kernel::Result<f64> {
-    m.mass_fraction(CompositionArg::composition(basis, value, t_ref, t_meas))
+    match basis {
+        Basis::W => Ok(value),
+        _ => m.mass_fraction(CompositionArg::composition(basis, value, t_ref, t_meas)),
+    }
+}
+
+/// Arrays at least this long that are densities at one temperature go
+/// through the prepared inverse ([`DensityInverse`]), whose set-up costs
+/// about three thousand model evaluations.
+const PREPARED_MIN: usize = 1024;
+
+/// The prepared inverse for a density array measured at one temperature.
+fn prepared_inverse<'m>(
+    m: &'m dyn Mixture,
+    c: &CompositionArg,
+    func: &str,
+) -> mlua::Result<Option<DensityInverse<'m, dyn Mixture + 'm>>> {
+    match (c.basis, &c.value, &c.t_meas) {
+        (Basis::Density, Numbers::Many(v), Numbers::One(t)) if v.len() >= PREPARED_MIN => {
+            DensityInverse::new(m, *t)
+                .map(Some)
+                .map_err(|e| runtime(format!("{func}: {e}")))
+        }
+        _ => Ok(None),
+    }
+}
+
+/// Mass fraction of element values (value, t_ref, t_meas), through the
+/// prepared inverse when there is one.
+#[inline]
+fn w_with(
+    m: &dyn Mixture,
+    inv: &Option<DensityInverse<'_, dyn Mixture + '_>>,
+    basis: Basis,
+    x: &[f64],
+) -> kernel::Result<f64> {
+    match inv {
+        Some(inv) => inv.w(x[0]),
+        None => w_of(m, basis, x[0], x[1], x[2]),
+    }
 }
 
 /// Reads a composition plus a property temperature `t` (default 20 °C;
@@ -134,20 +179,76 @@ fn property1(
     keys: &'static [&'static str],
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
 ) -> mlua::Result<Value> {
-    let f = Fields::read(arg, func, keys, "{abv = 40, t = 20}")?;
+    let f = Fields::read(lua, arg, func, keys, "{abv = 40, t = 20}")?;
+    if let Some((basis, value, t_ref, t)) = f.scalar_composition(allow_density) {
+        // For a density, t is both its measurement temperature and the
+        // temperature of the property.
+        let r = w_of(m, basis, value, t_ref, t).and_then(|w| prop(m, w, t));
+        return r
+            .map(Value::Number)
+            .map_err(|e| runtime(format!("{func}: {e}")));
+    }
     let (c, t) = comp_and_t(lua, &f, allow_density)?;
+    property1_parsed(lua, m, func, &c, &t, prop)
+}
+
+/// [`property1`] once the arguments are read.
+fn property1_parsed(
+    lua: &Lua,
+    m: &dyn Mixture,
+    func: &str,
+    c: &CompositionArg,
+    t: &Numbers,
+    prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
+) -> mlua::Result<Value> {
     let basis = c.basis;
+    let inv = prepared_inverse(m, c, func)?;
     let [out] = bulk(
         lua,
         func,
-        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
+        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", t)],
         |x| {
-            let w = w_of(m, basis, x[0], x[1], x[2])?;
+            let w = w_with(m, &inv, basis, x)?;
             Ok([prop(m, w, x[2])?])
         },
     )?
     .into_values(lua)?;
     Ok(out)
+}
+
+/// `m:density{…}`. Arrays of mass fractions already inside the model's
+/// range take a short cut: the range is checked once for the whole array
+/// and ρ(w, t) evaluated directly (the same values as `Mixture::density`).
+fn density(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
+    let func = "density";
+    let f = Fields::read(lua, arg, func, DENSITY_KEYS, "{abv = 40, t = 20}")?;
+    if let Some((basis, value, t_ref, t)) = f.scalar_composition(false) {
+        let rho = w_of(m, basis, value, t_ref, t).and_then(|w| m.density(w, t));
+        return rho
+            .map(Value::Number)
+            .map_err(|e| runtime(format!("{func}: {e}")));
+    }
+    let (c, t) = comp_and_t(lua, &f, false)?;
+    if c.basis == Basis::W {
+        if let Some(n) = common_len(func, &[("w", &c.value), ("t", &t)])? {
+            let v = m.validity();
+            let within = |x: &Numbers, lo: f64, hi: f64| match x {
+                Numbers::One(a) => *a >= lo && *a <= hi,
+                Numbers::Many(xs) => xs.iter().all(|a| *a >= lo && *a <= hi),
+            };
+            if within(&c.value, v.w_min, v.w_max) && within(&t, v.t_min, v.t_max) {
+                check_alloc(lua, func, n)?;
+                let out: Vec<f64> = match (&c.value, &t) {
+                    (Numbers::Many(ws), Numbers::One(t)) => {
+                        ws.iter().map(|w| m.rho(*w, *t)).collect()
+                    }
+                    (w, t) => (0..n).map(|i| m.rho(w.at(i), t.at(i))).collect(),
+                };
+                return Ok(Value::UserData(super::vector::create(lua, out)?));
+            }
+        }
+    }
+    property1_parsed(lua, m, func, &c, &t, |m, w, t| m.density(w, t))
 }
 
 /// A two-output property of (w, t), e.g. partial molar volumes.
@@ -158,15 +259,16 @@ fn property2(
     func: &str,
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<[f64; 2]>,
 ) -> mlua::Result<MultiValue> {
-    let f = Fields::read(arg, func, PROPERTY_KEYS, "{abv = 40, t = 20}")?;
+    let f = Fields::read(lua, arg, func, PROPERTY_KEYS, "{abv = 40, t = 20}")?;
     let (c, t) = comp_and_t(lua, &f, true)?;
     let basis = c.basis;
+    let inv = prepared_inverse(m, &c, func)?;
     let [a, b] = bulk(
         lua,
         func,
         &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
         |x| {
-            let w = w_of(m, basis, x[0], x[1], x[2])?;
+            let w = w_with(m, &inv, basis, x)?;
             prop(m, w, x[2])
         },
     )?
@@ -175,7 +277,7 @@ fn property2(
 }
 
 fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result<Table> {
-    let f = Fields::read(arg, func, STRENGTH_KEYS, "{density = 948.05, t = 20}")?;
+    let f = Fields::read(lua, arg, func, STRENGTH_KEYS, "{density = 948.05, t = 20}")?;
     let c = composition(lua, &f, true)?;
     let basis = c.basis;
     if basis != Basis::Density && f.has("t") {
@@ -212,6 +314,9 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
         .into_values(lua)?;
         return table_of(lua, &STRENGTH_U_FIELDS, vals);
     }
+    let inv = prepared_inverse(m, &c, func)?;
+    let bases = StrengthBases::new(m).map_err(|e| runtime(format!("{func}: {e}")))?;
+    let measured_at_20 = inv.is_some() && c.t_meas == Numbers::One(kernel::T_REF_C);
     let vals = bulk(
         lua,
         func,
@@ -221,7 +326,14 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
             ("t", &c.t_meas),
         ],
         |x| {
-            let s = m.convert(CompositionArg::composition(basis, x[0], x[1], x[2]))?;
+            let w = w_with(m, &inv, basis, x)?;
+            // A density measured at 20 °C is the density at the % vol
+            // reference temperature: no need to evaluate it again.
+            let s = if measured_at_20 {
+                bases.strength_with_rho_20(w, x[0])?
+            } else {
+                bases.strength(w)?
+            };
             Ok([s.w, s.abm, s.x, s.abv, s.proof])
         },
     )?
@@ -231,7 +343,7 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
 
 fn hydrometer(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "hydrometer";
-    let f = Fields::read(arg, func, HYDROMETER_KEYS, "{abv = 41.2, t = 24}")?;
+    let f = Fields::read(lua, arg, func, HYDROMETER_KEYS, "{abv = 41.2, t = 24}")?;
     let given = f.present(&["abv", "proof"]);
     let (key, proof) = match given.as_slice() {
         ["abv"] => ("abv", false),
@@ -276,6 +388,7 @@ fn hydrometer(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
 fn volume_at(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
     let func = "volume_at";
     let f = Fields::read(
+        lua,
         arg,
         func,
         VOLUME_AT_KEYS,
@@ -318,7 +431,7 @@ fn volume_at(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
 
 fn mix(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "mix";
-    let f = Fields::read(arg, func, MIX_KEYS, "{v1 = 52, v2 = 48, t = 20}")?;
+    let f = Fields::read(lua, arg, func, MIX_KEYS, "{v1 = 52, v2 = 48, t = 20}")?;
     let by_volume = f.has("v1") || f.has("v2");
     let by_mass = f.has("m1") || f.has("m2");
     if by_volume == by_mass {
@@ -388,15 +501,7 @@ fn describe(m: &dyn Mixture) -> String {
 impl UserData for MixtureUd {
     fn add_methods<M: UserDataMethods<Self>>(methods: &mut M) {
         methods.add_method("density", |lua, this, arg: Value| {
-            property1(
-                lua,
-                &*this.0,
-                &arg,
-                "density",
-                false,
-                DENSITY_KEYS,
-                |m, w, t| m.density(w, t),
-            )
+            density(lua, &*this.0, &arg)
         });
         methods.add_method("strength", |lua, this, arg: Value| {
             strength(lua, &*this.0, &arg, "strength")

@@ -20,9 +20,9 @@ pub mod format;
 pub mod help;
 pub mod limits;
 pub mod mixture;
-pub mod process;
 #[cfg(feature = "plot")]
 pub mod plot;
+pub mod process;
 pub mod sandbox;
 pub mod units;
 pub mod vector;
@@ -347,12 +347,28 @@ impl Host {
     }
 
     /// Drops all user state: a fresh state with the same options (and the
-    /// same interrupt flag).
+    /// same interrupt flag). Finalizers of the old state run with no
+    /// evaluation going on, so one that loops is stopped.
     pub fn reset(&mut self) -> Result<(), HostError> {
         let (lua, budget) = build(&self.options, self.interrupt.clone())?;
         self.lua = lua;
         self.budget = budget;
         Ok(())
+    }
+
+    /// Runs Rust code that calls into Lua (functions of the state, values'
+    /// metamethods) as one evaluation: the same time limit, interrupt,
+    /// memory limit for scripts, panic catching and error description as
+    /// [`Host::eval`]. Outside this and `eval`/`run_file`, Lua code is
+    /// stopped at the count hook's first check.
+    pub fn run<R>(&self, f: impl FnOnce(&Lua) -> mlua::Result<R>) -> Result<R, HostError> {
+        self.guarded(|| {
+            let limit = self.options.memory_limit;
+            self.lua.set_memory_limit(limit)?;
+            let r = f(&self.lua);
+            self.lua.set_memory_limit(limit + headroom(limit))?;
+            r
+        })
     }
 
     /// The help text for a name (as `help "name"` shows it).

@@ -52,7 +52,7 @@ struct Request {
 }
 
 fn bool_opt(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
-    match f.get(key) {
+    match f.get(key)?.as_ref() {
         None | Some(Value::Nil) => Ok(None),
         Some(Value::Boolean(b)) => Ok(Some(*b)),
         Some(other) => Err(runtime(format!(
@@ -64,7 +64,7 @@ fn bool_opt(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
 }
 
 fn pixels(f: &Fields, key: &str, default: u32) -> mlua::Result<u32> {
-    match f.get(key) {
+    match f.get(key)?.as_ref() {
         None | Some(Value::Nil) => Ok(default),
         Some(v) => {
             let x = number(v, f.func(), key)?;
@@ -145,8 +145,14 @@ fn read_request(
         }
         o => o,
     };
-    let f = Fields::read(opts, func, keys, "{title = \"…\", temperatures = {15, 25}}")?;
-    let title = match f.get("title") {
+    let f = Fields::read(
+        lua,
+        opts,
+        func,
+        keys,
+        "{title = \"…\", temperatures = {15, 25}}",
+    )?;
+    let title = match f.get("title")?.as_ref() {
         None | Some(Value::Nil) => None,
         Some(Value::String(s)) => Some(s.to_str()?.to_string()),
         Some(other) => {
@@ -162,7 +168,7 @@ fn read_request(
         height: pixels(&f, "height", d.height)?,
         title,
     };
-    let mut temps = match f.get("temperatures") {
+    let mut temps = match f.get("temperatures")?.as_ref() {
         None | Some(Value::Nil) => Vec::new(),
         Some(v) => match numbers(lua, v, func, "temperatures")? {
             Numbers::One(t) => vec![t],
@@ -175,7 +181,11 @@ fn read_request(
                 "{func}: give the temperature as t or as temperatures, not both"
             )));
         }
-        temps = vec![number(f.get("t").unwrap_or(&Value::Nil), func, "t")?];
+        temps = vec![number(
+            f.get("t")?.as_ref().unwrap_or(&Value::Nil),
+            func,
+            "t",
+        )?];
     }
     if f.has("temperatures") && temps.is_empty() {
         return Err(runtime(format!(

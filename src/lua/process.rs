@@ -121,7 +121,7 @@ fn strength_of(lua: &Lua, f: &Fields) -> mlua::Result<Composition> {
 }
 
 fn opt_bool(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
-    match f.get(key) {
+    match f.get(key)?.as_ref() {
         None | Some(Value::Nil) => Ok(None),
         Some(Value::Boolean(b)) => Ok(Some(*b)),
         Some(other) => Err(runtime(format!(
@@ -137,10 +137,10 @@ fn opt_bool(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
 /// liquid at `t`).
 fn amount_of(f: &Fields) -> mlua::Result<Amount> {
     let func = f.func();
-    let t = opt_number(f.get("t"), func, "t")?.unwrap_or(kernel::T_REF_C);
+    let t = opt_number(f.get("t")?.as_ref(), func, "t")?.unwrap_or(kernel::T_REF_C);
     let air = opt_bool(f, "air")?.unwrap_or(false);
-    let volume = opt_number(f.get("volume"), func, "volume")?;
-    let mass = opt_number(f.get("mass"), func, "mass")?;
+    let volume = opt_number(f.get("volume")?.as_ref(), func, "volume")?;
+    let mass = opt_number(f.get("mass")?.as_ref(), func, "mass")?;
     if !air && (f.has("air_density") || f.has("weights_density")) {
         return Err(runtime(format!(
             "{func}: air_density and weights_density only go with air = true (a mass weighed in air)"
@@ -160,10 +160,14 @@ fn amount_of(f: &Fields) -> mlua::Result<Amount> {
         (None, Some(kg)) if air => {
             let d = Weighing::default();
             let weighing = Weighing {
-                air_density: opt_number(f.get("air_density"), func, "air_density")?
+                air_density: opt_number(f.get("air_density")?.as_ref(), func, "air_density")?
                     .unwrap_or(d.air_density),
-                weights_density: opt_number(f.get("weights_density"), func, "weights_density")?
-                    .unwrap_or(d.weights_density),
+                weights_density: opt_number(
+                    f.get("weights_density")?.as_ref(),
+                    func,
+                    "weights_density",
+                )?
+                .unwrap_or(d.weights_density),
             };
             Ok(Amount::WeighedInAir { kg, t, weighing })
         }
@@ -235,7 +239,13 @@ fn sequence(v: &Value, func: &str, what: &str, example: &str) -> mlua::Result<Ve
 
 fn pure_alcohol(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "pure_alcohol";
-    let f = Fields::read(arg, func, LOT_KEYS, "{volume = 1000, abv = 40, t = 20}")?;
+    let f = Fields::read(
+        lua,
+        arg,
+        func,
+        LOT_KEYS,
+        "{volume = 1000, abv = 40, t = 20}",
+    )?;
     let lot = lot_of(lua, &f)?;
     let p = process::pure_alcohol(m, &lot).map_err(|e| kernel_err(func, e))?;
     record(
@@ -262,7 +272,13 @@ fn target_of(lua: &Lua, v: Option<&Value>, func: &str) -> mlua::Result<Compositi
         ))),
         Some(Value::Table(_)) => {
             let name = format!("{func}: target");
-            let f = Fields::read(v.unwrap_or(&Value::Nil), &name, TARGET_KEYS, "{proof = 80}")?;
+            let f = Fields::read(
+                lua,
+                v.unwrap_or(&Value::Nil),
+                &name,
+                TARGET_KEYS,
+                "{proof = 80}",
+            )?;
             strength_of(lua, &f)
         }
         Some(other) => Ok(Composition::abv(number(other, func, "target")?)),
@@ -272,14 +288,16 @@ fn target_of(lua: &Lua, v: Option<&Value>, func: &str) -> mlua::Result<Compositi
 fn reduce(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "reduce";
     let f = Fields::read(
+        lua,
         arg,
         func,
         REDUCE_KEYS,
         "{volume = 1000, abv = 63.5, t = 20, target = 40}",
     )?;
     let lot = lot_of(lua, &f)?;
-    let target = target_of(lua, f.get("target"), func)?;
-    let water_t = opt_number(f.get("water_t"), func, "water_t")?.unwrap_or(kernel::T_REF_C);
+    let target = target_of(lua, f.get("target")?.as_ref(), func)?;
+    let water_t =
+        opt_number(f.get("water_t")?.as_ref(), func, "water_t")?.unwrap_or(kernel::T_REF_C);
     let r =
         process::reduce_with_water_at(m, &lot, target, water_t).map_err(|e| kernel_err(func, e))?;
     let abv = m
@@ -331,7 +349,7 @@ fn blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let mut lots = Vec::with_capacity(items.len());
     for (i, v) in items.iter().enumerate() {
         let name = format!("{func}: lot {}", i + 1);
-        let f = Fields::read(v, &name, LOT_KEYS, "{volume = 500, abv = 60, t = 20}")?;
+        let f = Fields::read(lua, v, &name, LOT_KEYS, "{volume = 500, abv = 60, t = 20}")?;
         lots.push(lot_of(lua, &f)?);
     }
     let b = process::blend(m, &lots).map_err(|e| kernel_err(func, e))?;
@@ -342,8 +360,8 @@ fn blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
 /// `limit_mass` (kg, true mass), at most one of them.
 fn limit_of(f: &Fields, t: Option<f64>) -> mlua::Result<Option<Amount>> {
     let func = f.func();
-    let litres = opt_number(f.get("limit"), func, "limit")?;
-    let kg = opt_number(f.get("limit_mass"), func, "limit_mass")?;
+    let litres = opt_number(f.get("limit")?.as_ref(), func, "limit")?;
+    let kg = opt_number(f.get("limit_mass")?.as_ref(), func, "limit_mass")?;
     match (litres, kg) {
         (Some(_), Some(_)) => Err(runtime(format!(
             "{func}: give limit (L) or limit_mass (kg), not both"
@@ -375,12 +393,13 @@ fn plan_item(lua: &Lua, item: &process::PlanItem) -> mlua::Result<Table> {
 fn plan_blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "plan_blend";
     let f = Fields::read(
+        lua,
         arg,
         func,
         PLAN_KEYS,
         "{lots = {{abv = 60}, {abv = 45}}, target = {abv = 40, volume = 1000}}",
     )?;
-    let lot_values = match f.get("lots") {
+    let lot_values = match f.get("lots")?.as_ref() {
         None | Some(Value::Nil) => Vec::new(),
         Some(v) => sequence(v, func, "lots", "{{abv = 60, cost = 9.5, limit = 800}}")?,
     };
@@ -394,30 +413,31 @@ fn plan_blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     for (i, v) in lot_values.iter().enumerate() {
         let name = format!("{func}: lot {}", i + 1);
         let lf = Fields::read(
+            lua,
             v,
             &name,
             PLAN_LOT_KEYS,
             "{abv = 60, cost = 9.5, limit = 800}",
         )?;
         let strength = strength_of(lua, &lf)?;
-        let t = opt_number(lf.get("t"), &name, "t")?;
+        let t = opt_number(lf.get("t")?.as_ref(), &name, "t")?;
         let mut lot = PlanLot::new(strength);
         lot.t = t;
         lot.limit = limit_of(&lf, t)?;
-        lot.cost_per_l = opt_number(lf.get("cost"), &name, "cost")?.unwrap_or(0.0);
+        lot.cost_per_l = opt_number(lf.get("cost")?.as_ref(), &name, "cost")?.unwrap_or(0.0);
         lots.push(lot);
     }
-    let water = match f.get("water") {
+    let water = match f.get("water")?.as_ref() {
         None | Some(Value::Nil) | Some(Value::Boolean(true)) => Some(PlanWater::default()),
         Some(Value::Boolean(false)) => None,
         Some(v @ Value::Table(_)) => {
             let name = format!("{func}: water");
-            let wf = Fields::read(v, &name, PLAN_WATER_KEYS, "{cost = 0.002, t = 12}")?;
-            let t = opt_number(wf.get("t"), &name, "t")?;
+            let wf = Fields::read(lua, v, &name, PLAN_WATER_KEYS, "{cost = 0.002, t = 12}")?;
+            let t = opt_number(wf.get("t")?.as_ref(), &name, "t")?;
             Some(PlanWater {
                 t,
                 limit: limit_of(&wf, t)?,
-                cost_per_l: opt_number(wf.get("cost"), &name, "cost")?.unwrap_or(0.0),
+                cost_per_l: opt_number(wf.get("cost")?.as_ref(), &name, "cost")?.unwrap_or(0.0),
             })
         }
         Some(other) => {
@@ -427,10 +447,10 @@ fn plan_blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
             )))
         }
     };
-    let target = match f.get("target") {
+    let target = match f.get("target")?.as_ref() {
         Some(v @ Value::Table(_)) => {
             let name = format!("{func}: target");
-            let tf = Fields::read(v, &name, PLAN_TARGET_KEYS, "{abv = 40, volume = 1000}")?;
+            let tf = Fields::read(lua, v, &name, PLAN_TARGET_KEYS, "{abv = 40, volume = 1000}")?;
             let strength = strength_of(lua, &tf)?;
             if tf.has("t") && !tf.has("density") {
                 return Err(runtime(format!(
@@ -438,11 +458,12 @@ fn plan_blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
                      the target volume is in L at 20 °C"
                 )));
             }
-            let volume = opt_number(tf.get("volume"), &name, "volume")?.ok_or_else(|| {
-                runtime(format!(
-                    "{name}: volume is required (the blend's volume in L at 20 °C)"
-                ))
-            })?;
+            let volume =
+                opt_number(tf.get("volume")?.as_ref(), &name, "volume")?.ok_or_else(|| {
+                    runtime(format!(
+                        "{name}: volume is required (the blend's volume in L at 20 °C)"
+                    ))
+                })?;
             PlanTarget {
                 strength,
                 volume_20: volume,
@@ -479,13 +500,14 @@ fn plan_blend(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
 fn bottles(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
     let func = "bottles";
     let f = Fields::read(
+        lua,
         arg,
         func,
         BOTTLES_KEYS,
         "{volume = 1200, abv = 40, t = 20, size = 0.7}",
     )?;
     let lot = lot_of(lua, &f)?;
-    let size = opt_number(f.get("size"), func, "size")?.ok_or_else(|| {
+    let size = opt_number(f.get("size")?.as_ref(), func, "size")?.ok_or_else(|| {
         runtime(format!(
             "{func}: size is required (the bottle's labelled volume in L, e.g. 0.7)"
         ))

@@ -4,6 +4,8 @@
 //! Only the table, string, math, utf8 and coroutine libraries are loaded;
 //! `dofile`, `loadfile`, `collectgarbage` and `string.dump` are removed and
 //! `load` accepts text only; the string metatable is protected. `pcall`,
+//! `setmetatable` refuses `__gc` finalizers (Lua runs them with hooks off,
+//! out of reach of the time limit). `pcall`,
 //! `xpcall` and `coroutine.resume` are wrapped so that errors raised by
 //! meniscus functions come back as one-line `file:line: message` strings,
 //! a stopped evaluation (time limit, Ctrl-C) cannot be caught, and a Rust
@@ -149,6 +151,32 @@ pub fn setup(lua: &Lua, budget: Rc<Budget>) -> mlua::Result<()> {
         .exec()?;
 
     g.raw_set("load", lua.create_function(safe_load)?)?;
+
+    // Lua runs `__gc` finalizers with hooks switched off, so a finalizer
+    // that loops could not be stopped by the time limit or Ctrl-C. An
+    // object is marked for finalization only if its metatable has a
+    // `__gc` field when `setmetatable` is called: refuse such metatables.
+    let raw_setmetatable: Function = g.raw_get("setmetatable")?;
+    g.raw_set(
+        "setmetatable",
+        lua.create_function(move |_, (t, mt): (Value, Value)| {
+            if !t.is_table() {
+                return Err(runtime(format!(
+                    "setmetatable: the first argument must be a table, got {}",
+                    super::convert::describe_value(&t)
+                )));
+            }
+            if let Value::Table(m) = &mt {
+                if !m.raw_get::<Value>("__gc")?.is_nil() {
+                    return Err(runtime(
+                        "setmetatable: __gc finalizers are not allowed in scripts \
+                         (they would run where the time limit cannot stop them)",
+                    ));
+                }
+            }
+            raw_setmetatable.call::<Value>((t, mt))
+        })?,
+    )?;
 
     // Error values coming back from pcall/xpcall/resume: readable strings,
     // and a stopped evaluation re-raised.

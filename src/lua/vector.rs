@@ -13,7 +13,7 @@ use mlua::{AnyUserData, Function, Lua, MetaMethod, UserData, UserDataMethods, Va
 use super::convert::{describe_value, number, table_numbers};
 use super::errors::runtime;
 use super::format::fmt_vector;
-use super::help::add_help;
+use super::help::{add_help, tag};
 use super::limits::{check_alloc, Allocation};
 
 /// A vector of finite or non-finite f64 values held in Rust.
@@ -334,6 +334,10 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         })?,
     )?;
 
+    for name in ["vec", "range", "linspace"] {
+        let f: Value = g.get(name)?;
+        tag(lua, f, name)?;
+    }
     add_help(
         lua,
         "vec",

@@ -134,10 +134,17 @@ impl Session {
     /// `:list [all]`.
     fn list(&self, all: bool) -> String {
         let names = global_names(&self.host);
-        let globals = self.host.lua().globals();
+        // Reading globals may run a script's __index function (Lua code):
+        // only inside an evaluation, via `Host::run`.
+        self.host
+            .run(|lua| Ok(self.list_globals(&lua.globals(), &names, all)))
+            .unwrap_or_else(|e| format!("cannot list the globals: {}\n", e.message))
+    }
+
+    fn list_globals(&self, globals: &mlua::Table, names: &[String], all: bool) -> String {
         let mut out = String::new();
         if all {
-            for name in &names {
+            for name in names {
                 match globals.get::<mlua::Value>(name.as_str()) {
                     Ok(mlua::Value::Function(_)) => out.push_str(&format!("{name}()\n")),
                     Ok(mlua::Value::Table(t)) if name != "_G" => {
@@ -240,17 +247,25 @@ fn plugin_files(dir: &std::path::Path) -> io::Result<Vec<String>> {
 
 /// Describes the global value at a dotted path (`math`, `string.format`).
 fn describe(host: &Host, name: &str) -> Result<String, String> {
-    let mut value = mlua::Value::Table(host.lua().globals());
-    for part in name.split(['.', ':']) {
-        let next = match &value {
-            mlua::Value::Table(t) => t.get::<mlua::Value>(part).ok(),
-            _ => None,
-        };
-        match next {
-            Some(v) if !v.is_nil() => value = v,
-            _ => return Err(format!("no global named '{name}' (try :list all)")),
+    // Indexing may run a script's __index function: that is Lua code, so
+    // it runs as an evaluation (time limit, memory limit), via `Host::run`.
+    let found = host.run(|lua| {
+        let mut value = mlua::Value::Table(lua.globals());
+        for part in name.split(['.', ':']) {
+            let next = match &value {
+                mlua::Value::Table(t) => t.get::<mlua::Value>(part).ok(),
+                _ => None,
+            };
+            match next {
+                Some(v) if !v.is_nil() => value = v,
+                _ => return Ok(None),
+            }
         }
-    }
+        Ok(Some(value))
+    });
+    let Ok(Some(value)) = found else {
+        return Err(format!("no global named '{name}' (try :list all)"));
+    };
     Ok(match value {
         mlua::Value::Function(_) => format!("{name} is a function\n"),
         mlua::Value::Table(t) => {
@@ -783,5 +798,23 @@ mod tests {
             .unwrap_err()
             .contains("'math.nope'"));
         assert!(describe(&host, "math.pi.x").is_err());
+    }
+
+    #[test]
+    fn describe_runs_index_metamethods_as_an_evaluation() {
+        // An __index function is script code: outside an evaluation the
+        // host stops it at its first hook check, so `:help` must look the
+        // name up inside one (over 10 000 instructions here).
+        let host = Host::new(HostOptions::default()).unwrap();
+        host.eval(
+            "lazy = setmetatable({}, {__index = function(_, k) \
+               local s = 0 for i = 1, 100000 do s = s + i end return s end})",
+            "=test",
+        )
+        .unwrap();
+        assert_eq!(
+            describe(&host, "lazy.total").unwrap(),
+            "lazy.total = 5000050000\n"
+        );
     }
 }
