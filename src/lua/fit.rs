@@ -1262,7 +1262,9 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
                  \"density\", \"t\"); density in kg/m³, t in °C; t may also be one number\n\
                  for data all at one temperature.\n\
                  weight (column of 1/u², (kg/m³)⁻²) or u_density (column of standard\n\
-                 uncertainties, kg/m³): optional, for a weighted fit.\n\
+                 uncertainties, kg/m³): optional, for a weighted fit. Without them every\n\
+                 density is taken to have the same uncertainty (a least-squares fit in\n\
+                 density; the same coefficients as with a constant u_density).\n\
                  components: the two components, the one whose composition is given first,\n\
                  molar masses in g/mol.\n\
                  terms: \"auto\" (default: 1 to 12 Redlich–Kister terms, chosen by AICc) or\n\
@@ -1297,7 +1299,9 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
             format!(
                 "The fit report: data, pure-component curves, Redlich–Kister coefficients\n\
                  a_kj ± u, residual sd of density and V^E, √(χ²/dof) for weighted fits,\n\
-                 outliers (|studentized residual| > 3), condition number, the AICc table of\n\
+                 outliers (|studentized residual| above the Student-t value as rare as\n\
+                 3σ under normal errors: about 3.3 for 40 degrees of freedom, more for\n\
+                 fewer), condition number, the AICc table of\n\
                  the term selection, warnings, the data's source. print(m:report()).\n\
                  {FITTED_ONLY}"
             ),

@@ -63,12 +63,19 @@ pub struct RowResidual {
     pub rho_residual: f64,
     /// Leverage (diagonal of the hat matrix) in its own fit.
     pub leverage: f64,
-    /// Externally studentized residual: the weighted residual divided by
+    /// Externally studentized residual: the residual in density terms
+    /// (the V^E residual times ρ/V_m, over u(ρ) when stated) divided by
     /// the residual standard deviation of the fit without that row and by
     /// √(1 − leverage), signed like the density residual; 0 when undefined
     /// (leverage 1, or fewer than two residual degrees of freedom).
     pub studentized: f64,
-    /// |studentized| > [`OUTLIER_LIMIT`](super::OUTLIER_LIMIT).
+    /// The |studentized| above which this row is flagged:
+    /// [`outlier_limit`](super::outlier_limit) of the residual degrees of
+    /// freedom of its own fit (the excess fit, or its pure curve); infinite
+    /// when nothing can be flagged (too few degrees of freedom, given
+    /// curve).
+    pub limit: f64,
+    /// |studentized| > `limit`.
     pub outlier: bool,
 }
 
@@ -106,7 +113,9 @@ pub struct FitReport {
     pub rows: usize,
     /// Rows with 0 < w < 1 (those the excess fit uses).
     pub mixture_rows: usize,
-    /// Whether rows carried density uncertainties (weighted fit).
+    /// Whether rows carried density uncertainties (weighted by them);
+    /// otherwise every row was assumed to have the same, unknown density
+    /// uncertainty (see the module doc of [`crate::kernel::fit`](mod@crate::kernel::fit)).
     pub weighted: bool,
     /// Redlich–Kister terms used.
     pub terms: usize,
@@ -175,7 +184,8 @@ impl fmt::Display for FitReport {
             if self.weighted {
                 "weighted by the stated density uncertainties"
             } else {
-                "unit weights"
+                "no density uncertainties given: equal uncertainty assumed for every \
+                 density, rows weighted by (ρ/V_m)² (a least-squares fit in density)"
             }
         )?;
         let d = self.data_range;
@@ -271,28 +281,27 @@ impl fmt::Display for FitReport {
             "  condition number of the design: {:.3e}",
             self.condition_number
         )?;
+        let rule = format!(
+            "|studentized residual| above {:.2} for mixture rows, the Student-t value \
+             as rare as {}σ under normal errors",
+            super::outlier_limit(self.dof),
+            super::OUTLIER_LIMIT
+        );
         if self.outliers.is_empty() {
-            writeln!(
-                f,
-                "  no outliers (|studentized residual| > {})",
-                super::OUTLIER_LIMIT
-            )?;
+            writeln!(f, "  no outliers ({rule})")?;
         } else {
-            writeln!(
-                f,
-                "  outliers (|studentized residual| > {}):",
-                super::OUTLIER_LIMIT
-            )?;
+            writeln!(f, "  outliers ({rule}):")?;
             for &i in &self.outliers {
                 let r = &self.residuals[i];
                 writeln!(
                     f,
-                    "    row {}: w = {}, t = {} °C, residual {:+.4} kg/m³, studentized {:+.2}",
+                    "    row {}: w = {}, t = {} °C, residual {:+.4} kg/m³, studentized {:+.2} (limit {:.2})",
                     i + 1,
                     r.w,
                     r.t,
                     r.rho_residual,
-                    r.studentized
+                    r.studentized,
+                    r.limit
                 )?;
             }
         }
