@@ -1095,6 +1095,62 @@ fn report_prints_every_section() {
     }
 }
 
+/// The longest run of consecutive digits in `text`.
+fn longest_digit_run(text: &str) -> usize {
+    let (mut best, mut run) = (0, 0);
+    for c in text.chars() {
+        run = if c.is_ascii_digit() { run + 1 } else { 0 };
+        best = best.max(run);
+    }
+    best
+}
+
+// Numbers in the report carry sensible precision: compositions and
+// temperatures to 6 significant digits without trailing zeros (69.98 %
+// mass reads w = 0.6998, not 0.6998000000000001), densities and their
+// residuals to 0.001 kg/m³, cm³/mol to 4 decimals, coefficients to 6
+// significant digits with 2-digit uncertainties: nowhere a run of more
+// than 8 digits, nor the 0000…1 / 9999… tails of binary rounding.
+#[test]
+fn report_numbers_have_sensible_precision() {
+    let (s, rows) = demo_rows(false);
+    let mut f = fit(&s, &rows).unwrap();
+    // Flag row 12 (w = 69.98 %, 15 °C) by pushing it 0.5 kg/m³ down
+    // (terms fixed: AICc would spend extra terms on so large an error).
+    let mut bad = rows.clone();
+    bad[11].rho -= 0.5;
+    let mut fixed = s.clone();
+    fixed.terms = TermChoice::Fixed(5);
+    fixed.t_order = OrderChoice::Fixed(1);
+    let g = fit(&fixed, &bad).unwrap();
+    assert!(g.report.outliers.contains(&11), "{}", g.report);
+    f.report.warnings.push("a warning".into());
+    for (text, name) in [
+        (f.report.to_string(), "demo"),
+        (g.report.to_string(), "demo with an outlier"),
+        (fit(&spec(), &reference_rows(0.05, 1)).unwrap().report.to_string(), "reference"),
+        (fit(&methanol_water().0, &methanol_water().1).unwrap().report.to_string(), "methanol"),
+    ] {
+        assert!(longest_digit_run(&text) <= 8, "{name}:\n{text}");
+        assert!(!text.contains("0000") && !text.contains("9999"), "{name}:\n{text}");
+    }
+    let text = g.report.to_string();
+    assert!(
+        text.contains("row 12: w = 0.6998, t = 15 °C, residual -0.38"),
+        "{text}"
+    );
+    assert!(
+        text.contains("largest:        row 12 (w = 0.6998, t = 15 °C): -0.38"),
+        "{text}"
+    );
+    assert!(text.contains("valid range: w 0 to 1, t 15 to 35 °C"), "{text}");
+    assert!(text.contains("2-propanol (fitted, t₀ = 25 °C):  c0 = 781.080 ± 0.027"), "{text}");
+    assert!(text.contains("(t − 25 °C)^j"), "{text}");
+    let text = f.report.to_string();
+    assert!(text.contains("    0   0       -3.42113     0.0044\n"), "{text}");
+    assert!(text.contains("sd of density:  0.048 kg/m³"), "{text}");
+}
+
 // ---- plots --------------------------------------------------------------------------------
 
 #[cfg(feature = "plot")]
@@ -1231,5 +1287,5 @@ fn demo_data_fit_the_same_without_their_uncertainty_column() {
     assert!((worst(ra) - worst(rb)).abs() < 1e-8);
     assert!(worst(rb) < 3.5, "{rb}");
     let text = rb.to_string();
-    assert!(text.contains("equal uncertainty assumed"), "{text}");
+    assert!(text.contains("assumed equally uncertain"), "{text}");
 }

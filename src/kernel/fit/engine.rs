@@ -6,7 +6,7 @@ use nalgebra::{DMatrix, DVector};
 
 use super::lsq::{self, Reduced, Solution};
 use super::model::{Estimate, Excess, FittedMixture, Provenance, PureCurve, PureOrigin};
-use super::report::{AiccEntry, Coefficient, FitReport, PureReport, RowResidual};
+use super::report::{num, AiccEntry, Coefficient, FitReport, PureReport, RowResidual};
 use super::{
     check_component, Fit, FitRow, FitSpec, OrderChoice, PureSource, TermChoice, MAX_PURE_DEGREE,
     MAX_TERMS, MAX_T_ORDER, T_DISTINCT_C,
@@ -592,9 +592,12 @@ fn pure_curve(
     let (lo, hi) = span(&temps);
     if lo > mix_span.0 + T_DISTINCT_C || hi < mix_span.1 - T_DISTINCT_C {
         warnings.push(format!(
-            "the density curve of pure {name} is fitted over {lo} to {hi} °C and extrapolated to \
+            "the density curve of pure {name} is fitted over {} to {} °C and extrapolated to \
              the mixture rows' {} to {} °C",
-            mix_span.0, mix_span.1
+            num(lo),
+            num(hi),
+            num(mix_span.0),
+            num(mix_span.1)
         ));
     }
     let deg = MAX_PURE_DEGREE.min(distinct - 1);
