@@ -4,10 +4,10 @@
 //! error cases, a handbook data set for methanol–water, save/load, the
 //! extrapolation policy and the plots.
 
-use meniscus::kernel::composition::w_from_x;
+use meniscus::kernel::composition::{w_from_x, x_from_w};
 use meniscus::kernel::fit::{
     fit, rows_from_basis, tangent_intercept, Fit, FitRow, FitSpec, FittedMixture, OrderChoice,
-    PureDensity, PureSource, RowBasis, TermChoice,
+    PureDensity, PureSource, RowBasis, TangentWindow, TermChoice, ADAPTIVE_GAMMA,
 };
 use meniscus::kernel::{Component, Error, EthanolWater, Mixture, Validity};
 
@@ -485,10 +485,7 @@ fn unweighted_fit_equals_a_fit_with_equal_stated_uncertainties() {
         (known_spec(), known_rows(0.05, 7)),
         (spec(), reference_rows(0.05, 2)),
     ] {
-        let plain: Vec<FitRow> = rows
-            .iter()
-            .map(|r| FitRow::new(r.w, r.rho, r.t))
-            .collect();
+        let plain: Vec<FitRow> = rows.iter().map(|r| FitRow::new(r.w, r.rho, r.t)).collect();
         let equal: Vec<FitRow> = plain.iter().map(|r| r.with_u_rho(0.03)).collect();
         let a = fit(&spec, &plain).unwrap();
         let b = fit(&spec, &equal).unwrap();
@@ -933,7 +930,7 @@ fn tangent_cross_check_agrees_with_the_fit_inside_the_range() {
     let (s, rows) = methanol_water();
     let f = fit(&s, &rows).unwrap();
     let xs = [0.1, 0.3, 0.5, 0.7, 0.9];
-    let cc = f.model.cross_check(20.0, 0.01, &xs, 7).unwrap();
+    let cc = f.model.cross_check(20.0, 0.01, &xs, Some(7)).unwrap();
     assert_eq!(cc.rows.len(), xs.len());
     for r in &cc.rows {
         // A 7-point local quadratic on data rounded to 0.1 kg/m³ resolves
@@ -948,11 +945,224 @@ fn tangent_cross_check_agrees_with_the_fit_inside_the_range() {
         text.contains("V̄ methanol fitted") && text.contains("tangent"),
         "{text}"
     );
+    // The adaptive default on the same 2 % grid, with the fit's density sd
+    // (mostly the table's 0.1 kg/m³ rounding).
+    // The rows are dense and smooth, so the windows grow to average the
+    // rounding (12 rows seen at every x).
+    let auto = f.model.cross_check(20.0, 0.01, &xs, None).unwrap();
+    for r in &auto.rows {
+        assert!(r.local.points >= 9, "{auto}");
+        for k in 0..2 {
+            assert!(
+                r.difference[k].abs() < 0.05,
+                "x={} V̄{k}: {:?}\n{auto}",
+                r.x,
+                r
+            );
+        }
+    }
     // The free function refuses too little data.
-    let e = tangent_intercept(&rows[..2], &s.components, 20.0, 0.01, &[0.5], 5).unwrap_err();
+    let e = tangent_intercept(
+        &rows[..2],
+        &s.components,
+        20.0,
+        0.01,
+        &[0.5],
+        TangentWindow::Rows(5),
+    )
+    .unwrap_err();
     assert!(e.to_string().contains("3 or more compositions"), "{e}");
-    let e = tangent_intercept(&rows, &s.components, 20.0, 0.01, &[0.5], 2).unwrap_err();
+    let e = tangent_intercept(
+        &rows,
+        &s.components,
+        20.0,
+        0.01,
+        &[0.5],
+        TangentWindow::Rows(2),
+    )
+    .unwrap_err();
     assert!(e.to_string().contains("at least 3 rows"), "{e}");
+    for bad in [-0.1, f64::NAN, f64::INFINITY] {
+        let e = tangent_intercept(
+            &rows,
+            &s.components,
+            20.0,
+            0.01,
+            &[0.5],
+            TangentWindow::Adaptive { density_sd: bad },
+        )
+        .unwrap_err();
+        assert!(
+            e.to_string().contains("non-negative number of kg/m³"),
+            "{e}"
+        );
+    }
+}
+
+/// Rows of the reference equation at 10, 20, 30 °C on a coarse grid of
+/// mass fractions w = 0, 1/steps, …, 1, noise-free.
+fn coarse_reference_rows(steps: usize) -> Vec<FitRow> {
+    let ew = EthanolWater::new();
+    let mut rows = Vec::new();
+    for t in TEMPS {
+        for i in 0..=steps {
+            let w = i as f64 / steps as f64;
+            rows.push(FitRow::new(w, ew.rho(w, t), t));
+        }
+    }
+    rows
+}
+
+/// Molar volume of ethanol–water at 20 °C from OIML R 22, cm³/mol.
+fn reference_vm(x: f64) -> f64 {
+    let ew = EthanolWater::new();
+    let [c1, c2] = ew.components().clone();
+    let w = w_from_x(x, c1.molar_mass, c2.molar_mass);
+    let mbar = 1.0 / (w / c1.molar_mass + (1.0 - w) / c2.molar_mass);
+    1000.0 * mbar / ew.rho(w, 20.0)
+}
+
+/// Largest |V_m‴| on [a, b] from central differences of the reference.
+fn reference_vm3_max(a: f64, b: f64) -> f64 {
+    let h = 0.002;
+    (0..=200)
+        .map(|i| {
+            let x = (a + (b - a) * i as f64 / 200.0).clamp(2.0 * h, 1.0 - 2.0 * h);
+            let d3 = (reference_vm(x + 2.0 * h) - 2.0 * reference_vm(x + h)
+                + 2.0 * reference_vm(x - h)
+                - reference_vm(x - 2.0 * h))
+                / (2.0 * h * h * h);
+            d3.abs()
+        })
+        .fold(0.0, f64::max)
+}
+
+/// Bound on the errors of V̄₁ and V̄₂ from the tangent at x0 of the
+/// quadratic through exact V_m at the three mole fractions `xs`: the
+/// error functional annihilates quadratics, so by Peano's kernel theorem
+/// it is ∫K(s) V_m‴(s) ds, at most max|V_m‴| ∫|K|, with
+/// K(s) = Σ cᵢ (xᵢ − s)₊²/2 − (x0 − s)₊²/2 − g (x0 − s)₊, the cᵢ the
+/// tangent's weights on the three values and g = 1 − x0 or −x0.
+fn three_point_bound(xs: [f64; 3], x0: f64) -> [f64; 2] {
+    let mut l = [0.0; 3];
+    let mut dl = [0.0; 3];
+    for i in 0..3 {
+        let (j, k) = ((i + 1) % 3, (i + 2) % 3);
+        let den = (xs[i] - xs[j]) * (xs[i] - xs[k]);
+        l[i] = (x0 - xs[j]) * (x0 - xs[k]) / den;
+        dl[i] = (2.0 * x0 - xs[j] - xs[k]) / den;
+    }
+    let a = xs.iter().copied().fold(x0, f64::min);
+    let b = xs.iter().copied().fold(x0, f64::max);
+    let v3 = reference_vm3_max(a, b);
+    let pos = |v: f64| v.max(0.0);
+    [1.0 - x0, -x0].map(|g| {
+        let n = 4000;
+        let ds = (b - a) / n as f64;
+        let mut integral = 0.0;
+        for m in 0..n {
+            let s = a + (m as f64 + 0.5) * ds;
+            let mut k = -pos(x0 - s).powi(2) / 2.0 - g * pos(x0 - s);
+            for i in 0..3 {
+                k += (l[i] + g * dl[i]) * pos(xs[i] - s).powi(2) / 2.0;
+            }
+            integral += k.abs() * ds;
+        }
+        v3 * integral
+    })
+}
+
+// The cross-check on coarse grids of exact reference data (OIML R 22,
+// 10 % and 5 % mass steps: mole-fraction steps up to 0.17 and 0.11), at
+// 20 °C, x = 0.05 … 0.9, against the exact partial molar volumes.
+//
+// Tolerance, per x and component: with exact data the least biased local
+// quadratic is the one through the 3 nearest compositions; its error is
+// pure truncation, bounded by Peano's kernel theorem with max|V_m‴| over
+// the window (three_point_bound; margin 1.25 for the finite-difference
+// V_m‴). The adaptive rule keeps a wider window only while its interval
+// V̄ ± Γu overlaps that of every narrower one, so its tangent lies within
+// Γ(u + u₃) of the 3-row one (u from the fit's density sd, here its
+// misfit to the reference, 0.080 and 0.007 kg/m³). Tolerance = 1.25 ×
+// bound + Γ(u + u₃). Largest errors seen: 0.32 cm³/mol at x = 0.05 on the
+// 10 % grid (bound 0.67: the minimum of V̄ ethanol near x ≈ 0.08 is
+// narrower than the grid), 0.19 at x = 0.2, and 0.054 on the 5 % grid.
+// The former default of 7 rows fails the same tolerance (errors up to
+// 0.73 and 0.42 cm³/mol).
+#[test]
+fn adaptive_tangent_window_follows_the_reference_on_coarse_grids() {
+    let ew = EthanolWater::new();
+    let comps = ew.components().clone();
+    let (m1, m2) = (comps[0].molar_mass, comps[1].molar_mass);
+    let xs: Vec<f64> = (1..=18).map(|i| i as f64 * 0.05).collect();
+    for steps in [10, 20] {
+        let rows = coarse_reference_rows(steps);
+        let f = fit(&spec(), &rows).unwrap();
+        let sd = f.model.density_residual_sd();
+        let cc = f.model.cross_check(20.0, 0.01, &xs, None).unwrap();
+        assert_eq!(cc.window, TangentWindow::Adaptive { density_sd: sd });
+        let fixed = f.model.cross_check(20.0, 0.01, &xs, Some(7)).unwrap();
+        let at20: Vec<FitRow> = rows.iter().copied().filter(|r| r.t == 20.0).collect();
+        let (mut worst, mut fixed_fails) = (0.0f64, 0);
+        for (r, r7) in cc.rows.iter().zip(&fixed.rows) {
+            let x0 = r.x;
+            let exact = ew
+                .partial_molar_volumes(w_from_x(x0, m1, m2), 20.0)
+                .unwrap();
+            let mut near = at20.clone();
+            near.sort_by(|a, b| {
+                let da = (x_from_w(a.w, m1, m2) - x0).abs();
+                da.total_cmp(&(x_from_w(b.w, m1, m2) - x0).abs())
+            });
+            let near = &near[..3];
+            let t3 = tangent_intercept(
+                near,
+                &comps,
+                20.0,
+                0.01,
+                &[x0],
+                TangentWindow::Adaptive { density_sd: sd },
+            )
+            .unwrap()[0];
+            let near_x = [0, 1, 2].map(|i| x_from_w(near[i].w, m1, m2));
+            let bound = three_point_bound(near_x, x0);
+            let three = [t3.v1, t3.v2];
+            let chosen = [r.local.v1, r.local.v2];
+            let seven = [r7.local.v1, r7.local.v2];
+            for k in 0..2 {
+                let e3 = (three[k] - exact[k]).abs();
+                assert!(
+                    e3 <= 1.25 * bound[k] + 1e-6,
+                    "{steps} steps, x = {x0}, V̄{k}: 3-row error {e3} beyond bound {}",
+                    bound[k]
+                );
+                let tol = 1.25 * bound[k] + ADAPTIVE_GAMMA * (r.local.u[k] + t3.u[k]);
+                let e = (chosen[k] - exact[k]).abs();
+                assert!(
+                    e <= tol,
+                    "{steps} steps, x = {x0}, V̄{k}: error {e} beyond {tol} ({} rows)\n{cc}",
+                    r.local.points
+                );
+                worst = worst.max(e);
+                if (seven[k] - exact[k]).abs() > tol {
+                    fixed_fails += 1;
+                }
+            }
+            assert!(r.local.points >= 3 && r.local.x_min <= x0 && r.local.x_max >= x0);
+            // Sparse rows where V_m bends sharply: the window stays narrow.
+            if x0 <= 0.3 {
+                assert!(r.local.points <= 5, "{cc}");
+            }
+        }
+        assert!(
+            worst < if steps == 10 { 0.35 } else { 0.06 },
+            "{steps}: {worst}"
+        );
+        assert!(
+            fixed_fails >= 5,
+            "{steps} steps: 7 rows failed only {fixed_fails} times"
+        );
+    }
 }
 
 // ---- save and load ----------------------------------------------------------------
@@ -1128,11 +1338,26 @@ fn report_numbers_have_sensible_precision() {
     for (text, name) in [
         (f.report.to_string(), "demo"),
         (g.report.to_string(), "demo with an outlier"),
-        (fit(&spec(), &reference_rows(0.05, 1)).unwrap().report.to_string(), "reference"),
-        (fit(&methanol_water().0, &methanol_water().1).unwrap().report.to_string(), "methanol"),
+        (
+            fit(&spec(), &reference_rows(0.05, 1))
+                .unwrap()
+                .report
+                .to_string(),
+            "reference",
+        ),
+        (
+            fit(&methanol_water().0, &methanol_water().1)
+                .unwrap()
+                .report
+                .to_string(),
+            "methanol",
+        ),
     ] {
         assert!(longest_digit_run(&text) <= 8, "{name}:\n{text}");
-        assert!(!text.contains("0000") && !text.contains("9999"), "{name}:\n{text}");
+        assert!(
+            !text.contains("0000") && !text.contains("9999"),
+            "{name}:\n{text}"
+        );
     }
     let text = g.report.to_string();
     assert!(
@@ -1143,11 +1368,20 @@ fn report_numbers_have_sensible_precision() {
         text.contains("largest:        row 12 (w = 0.6998, t = 15 °C): -0.38"),
         "{text}"
     );
-    assert!(text.contains("valid range: w 0 to 1, t 15 to 35 °C"), "{text}");
-    assert!(text.contains("2-propanol (fitted, t₀ = 25 °C):  c0 = 781.080 ± 0.027"), "{text}");
+    assert!(
+        text.contains("valid range: w 0 to 1, t 15 to 35 °C"),
+        "{text}"
+    );
+    assert!(
+        text.contains("2-propanol (fitted, t₀ = 25 °C):  c0 = 781.080 ± 0.027"),
+        "{text}"
+    );
     assert!(text.contains("(t − 25 °C)^j"), "{text}");
     let text = f.report.to_string();
-    assert!(text.contains("    0   0       -3.42113     0.0044\n"), "{text}");
+    assert!(
+        text.contains("    0   0       -3.42113     0.0044\n"),
+        "{text}"
+    );
     assert!(text.contains("sd of density:  0.048 kg/m³"), "{text}");
 }
 
@@ -1238,7 +1472,10 @@ mod plots {
 /// the fictional Fenwick Reach Solvents QA lab), with or without their
 /// stated density uncertainty.
 fn demo_rows(with_u: bool) -> (FitSpec, Vec<FitRow>) {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/demo-data/solvent_densities.csv");
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/demo-data/solvent_densities.csv"
+    );
     let text = std::fs::read_to_string(path).unwrap();
     let comps = [
         Component::new("2-propanol", 60.096),
@@ -1248,7 +1485,11 @@ fn demo_rows(with_u: bool) -> (FitSpec, Vec<FitRow>) {
         .lines()
         .skip(1)
         .map(|line| {
-            let f: Vec<f64> = line.split(',').skip(1).map(|c| c.parse().unwrap()).collect();
+            let f: Vec<f64> = line
+                .split(',')
+                .skip(1)
+                .map(|c| c.parse().unwrap())
+                .collect();
             let r = FitRow::from_basis(RowBasis::Abm, f[0], f[2], f[1], &comps).unwrap();
             if with_u {
                 r.with_u_rho(f[3])
@@ -1274,7 +1515,10 @@ fn demo_data_fit_the_same_without_their_uncertainty_column() {
     assert_eq!((rb.terms, rb.t_order), (5, 1), "{rb}");
     assert_eq!((ra.terms, ra.t_order), (rb.terms, rb.t_order));
     for (ca, cb) in ra.coefficients.iter().zip(&rb.coefficients) {
-        assert!((ca.value - cb.value).abs() <= 1e-9 * ca.value.abs(), "{ca:?} {cb:?}");
+        assert!(
+            (ca.value - cb.value).abs() <= 1e-9 * ca.value.abs(),
+            "{ca:?} {cb:?}"
+        );
     }
     assert_eq!(ra.outliers, rb.outliers);
     let worst = |r: &meniscus::kernel::fit::FitReport| {

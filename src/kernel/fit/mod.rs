@@ -53,7 +53,10 @@ mod model;
 mod report;
 mod stats;
 
-pub use crosscheck::{tangent_intercept, CrossCheck, PmvComparison, TangentPmv};
+pub use crosscheck::{
+    tangent_intercept, CrossCheck, PmvComparison, TangentPmv, TangentWindow, ADAPTIVE_GAMMA,
+    ADAPTIVE_WINDOWS,
+};
 pub use engine::fit;
 pub use io::FORMAT_VERSION;
 pub use model::{Estimate, FittedMixture, Isotherm, Provenance, PureOrigin};

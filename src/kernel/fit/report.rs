@@ -229,12 +229,7 @@ impl fmt::Display for FitReport {
         writeln!(
             f,
             "  data: {} rows ({} mixture, {} pure {}, {} pure {})",
-            self.rows,
-            self.mixture_rows,
-            self.pure[0].rows,
-            c1.name,
-            self.pure[1].rows,
-            c2.name,
+            self.rows, self.mixture_rows, self.pure[0].rows, c1.name, self.pure[1].rows, c2.name,
         )?;
         if self.weighted {
             writeln!(f, "  weights: weighted by the stated density uncertainties")?;

@@ -98,8 +98,7 @@ fn inc_beta(a: f64, b: f64, x: f64) -> f64 {
     if x >= 1.0 {
         return 1.0;
     }
-    let ln_front =
-        ln_gamma(a + b) - ln_gamma(a) - ln_gamma(b) + a * x.ln() + b * (1.0 - x).ln();
+    let ln_front = ln_gamma(a + b) - ln_gamma(a) - ln_gamma(b) + a * x.ln() + b * (1.0 - x).ln();
     let front = ln_front.exp();
     // The continued fraction converges fast for x < (a+1)/(a+b+2); use the
     // symmetry I_x(a, b) = 1 − I_{1−x}(b, a) on the other side.
