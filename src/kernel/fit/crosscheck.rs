@@ -38,7 +38,7 @@
 //! the minimum of V̄ ethanol is narrower than the grid); on the 2-propanol
 //! demo data (density noise 0.05 kg/m³, x steps up to 0.15) within
 //! 0.1 cm³/mol of the model the data were made from, where the fit is
-//! within 0.01. [`TangentPmv::u`] gives the tangent's noise-only
+//! within 0.02. [`TangentPmv::u`] gives the tangent's noise-only
 //! uncertainty, a lower bound.
 
 use std::fmt;
@@ -448,14 +448,13 @@ impl fmt::Display for CrossCheck {
         }
         writeln!(
             f,
-            "  {:>7} {:>22} {:>10} {:>22} {:>10} {:>5}  {}",
+            "  {:>7} {:>22} {:>10} {:>22} {:>10} {:>5}  x span",
             "x",
             format!("V̄ {a} fitted"),
             "tangent",
             format!("V̄ {b} fitted"),
             "tangent",
             "rows",
-            "x span"
         )?;
         for r in &self.rows {
             writeln!(
