@@ -18,13 +18,11 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use crate::kernel::composition::{w_from_x, x_from_w};
-use crate::kernel::fit::{tangent_intercept, FitRow, FittedMixture};
+use crate::kernel::fit::{tangent_intercept, FitRow, FittedMixture, TangentWindow};
 use crate::kernel::{Error, Mixture, Result};
 
 /// Rows within this many kelvin of a plotted temperature are drawn with it.
 pub const ROW_T_TOL_C: f64 = 0.05;
-/// Rows in each local regression of the tangent points.
-pub const TANGENT_WINDOW: usize = 7;
 /// Points per plotted curve.
 const SAMPLES: usize = 201;
 
@@ -371,8 +369,10 @@ pub fn excess_volume_vs_x(
 /// Partial molar volumes of both components against mole fraction of
 /// component 1 at `t` °C, in two panels (their magnitudes differ). With
 /// `data`, the rows at `t` give model-free points: tangent-intercept values
-/// at each measured composition over its [`TANGENT_WINDOW`] nearest rows
-/// (drawn only when the rows at `t` cover 3 or more compositions). With
+/// at each measured composition over windows chosen from the data
+/// ([`TangentWindow::Adaptive`], with the density scatter of `band`'s fit,
+/// or else of the rows about `m`), drawn only when the rows at `t` cover 3
+/// or more compositions. With
 /// `band`, a fitted model, a shaded band of ±2 standard uncertainties of
 /// that model is drawn around its curves (the band belongs to `band`, so
 /// pass the same model as `m` for a fit's own band).
@@ -425,7 +425,20 @@ pub fn partial_molar_volumes_vs_x(
         xs_data.dedup_by(|a, b| (*a - *b).abs() <= 1e-9);
         if xs_data.len() >= 3 {
             let comps = m.components();
-            for p in tangent_intercept(&at_t, comps, t, ROW_T_TOL_C, &xs_data, TANGENT_WINDOW)? {
+            let density_sd = match band {
+                Some(f) => f.density_residual_sd(),
+                None => {
+                    let ss: f64 = at_t.iter().map(|r| (r.rho - m.rho(r.w, r.t)).powi(2)).sum();
+                    let sd = (ss / at_t.len() as f64).sqrt();
+                    if sd.is_finite() {
+                        sd
+                    } else {
+                        0.0
+                    }
+                }
+            };
+            let window = TangentWindow::Adaptive { density_sd };
+            for p in tangent_intercept(&at_t, comps, t, ROW_T_TOL_C, &xs_data, window)? {
                 points[0].push((p.x, p.v1));
                 points[1].push((p.x, p.v2));
             }

@@ -4,10 +4,10 @@
 //! error cases, a handbook data set for methanol–water, save/load, the
 //! extrapolation policy and the plots.
 
-use meniscus::kernel::composition::w_from_x;
+use meniscus::kernel::composition::{w_from_x, x_from_w};
 use meniscus::kernel::fit::{
-    fit, rows_from_basis, tangent_intercept, FitRow, FitSpec, FittedMixture, OrderChoice,
-    PureDensity, PureSource, RowBasis, TermChoice,
+    fit, rows_from_basis, tangent_intercept, Fit, FitRow, FitSpec, FittedMixture, OrderChoice,
+    PureDensity, PureSource, RowBasis, TangentWindow, TermChoice, ADAPTIVE_GAMMA,
 };
 use meniscus::kernel::{Component, Error, EthanolWater, Mixture, Validity};
 
@@ -266,9 +266,10 @@ fn a_planted_outlier_is_flagged() {
 
 #[test]
 fn covariance_reproduces_the_hat_matrix_trace() {
-    // With unit weights, Σ_i u(fitted V^E_i)² = σ² tr(H) = σ² p: the
-    // propagated uncertainties at the data points and the leverages come
-    // from the same covariance.
+    // With no stated u(ρ) the rows are weighted by w_i = (ρ_i/V_m,i)²
+    // (equal density uncertainty) and Σ_i w_i u(fitted V^E_i)² = σ² tr(H)
+    // = σ² p with σ² = χ²/(N − p): the propagated uncertainties at the
+    // data points and the leverages come from the same covariance.
     let ew = EthanolWater::new();
     let mut noise = Noise(77);
     let rows: Vec<FitRow> = (0..=40)
@@ -282,17 +283,31 @@ fn covariance_reproduces_the_hat_matrix_trace() {
     let f = fit(&s, &rows).unwrap();
     let r = &f.report;
     let p = 6.0;
-    let sigma2 = r.residual_sd_ve.powi(2);
+    assert!(!r.weighted);
+    let chosen = r.aicc_table.iter().find(|e| e.chosen).unwrap();
+    let sigma2 = chosen.rss.unwrap() / r.dof as f64;
+    let [c1, c2] = f.model.components();
     let mut sum_u2 = 0.0;
     let mut sum_h = 0.0;
     for row in &rows[1..40] {
-        sum_u2 += f
-            .model
-            .excess_molar_volume_u(row.w, 20.0)
-            .unwrap()
-            .u
-            .powi(2);
+        let mbar = 1.0 / (row.w / c1.molar_mass + (1.0 - row.w) / c2.molar_mass);
+        let vm = 1000.0 * mbar / row.rho;
+        let weight = (row.rho / vm).powi(2);
+        sum_u2 += weight
+            * f.model
+                .excess_molar_volume_u(row.w, 20.0)
+                .unwrap()
+                .u
+                .powi(2);
     }
+    // σ is in density terms: to first order it is the residual sd of the
+    // densities themselves (here mostly the misfit of 6 terms to OIML R 22).
+    let sd_rho = r.residual_sd_rho;
+    assert!(
+        (sigma2.sqrt() / sd_rho - 1.0).abs() < 0.01,
+        "σ {} against sd of density {sd_rho}",
+        sigma2.sqrt()
+    );
     for res in &r.residuals[1..40] {
         sum_h += res.leverage;
     }
@@ -307,6 +322,200 @@ fn covariance_reproduces_the_hat_matrix_trace() {
     let cov = f.model.covariance();
     for (i, c) in r.coefficients.iter().enumerate() {
         assert!((cov[(i, i)].sqrt() - c.u).abs() < 1e-15);
+    }
+}
+
+// ---- weights when no density uncertainty is given ---------------------------
+
+/// A known model of our own (2-propanol–water-like magnitudes, invented
+/// coefficients): pure densities ρ₁*(t), ρ₂*(t) and a 4-term Redlich–Kister
+/// V^E with linear temperature terms, τ = t − 25 °C.
+const KNOWN_M: [f64; 2] = [60.096, 18.015];
+const KNOWN_A: [[f64; 2]; 4] = [[-4.10, 0.012], [1.60, -0.008], [-1.90, 0.0], [1.10, 0.004]];
+
+fn known_rho(w: f64, t: f64) -> f64 {
+    let tau = t - 25.0;
+    let r1 = 781.1 - 0.83 * tau - 0.0011 * tau * tau;
+    let r2 = 997.05 - 0.26 * tau - 0.0045 * tau * tau;
+    let [m1, m2] = KNOWN_M;
+    let s = w / m1 + (1.0 - w) / m2;
+    let x = w / m1 / s;
+    let z = 2.0 * x - 1.0;
+    let mut ve = 0.0;
+    let mut zk = x * (1.0 - x);
+    for a in KNOWN_A {
+        ve += (a[0] + a[1] * tau) * zk;
+        zk *= z;
+    }
+    let vm = x * 1000.0 * m1 / r1 + (1.0 - x) * 1000.0 * m2 / r2 + ve;
+    1000.0 / (s * vm)
+}
+
+/// Rows of the known model at 15, 25, 35 °C: each pure component twice and
+/// 17 mixtures per temperature, with density noise of standard deviation
+/// `sigma` (kg/m³), equal for every row, and no stated uncertainty.
+fn known_rows(sigma: f64, seed: u64) -> Vec<FitRow> {
+    let mut noise = Noise(0xD1B5_4A32_D192_ED03 ^ seed);
+    let mut rows = Vec::new();
+    for t in [15.0, 25.0, 35.0] {
+        let mut ws = vec![0.0, 0.0, 1.0, 1.0];
+        ws.extend((1..=17).map(|i| i as f64 / 18.0));
+        for w in ws {
+            rows.push(FitRow::new(w, known_rho(w, t) + sigma * noise.normal(), t));
+        }
+    }
+    rows
+}
+
+fn known_spec() -> FitSpec {
+    let mut s = FitSpec::new(
+        "known model",
+        [
+            Component::new("solvent", KNOWN_M[0]),
+            Component::new("water", KNOWN_M[1]),
+        ],
+    );
+    s.terms = TermChoice::Fixed(4);
+    s.t_order = OrderChoice::Fixed(1);
+    s.t_center = Some(25.0);
+    s
+}
+
+/// Root mean square of the studentized residuals of the water-rich
+/// (x < 0.15) and solvent-rich (x > 0.5) mixture rows of the fits to
+/// seeds 1–12 of [`known_rows`], and the number of mixture rows flagged.
+/// `old_weights` states u(ρ) ∝ ρ/V_m, which weights every row's V^E
+/// equally (the kernel's former rule when no uncertainty was given).
+fn studentized_balance(old_weights: bool, check: impl Fn(u64, &Fit)) -> (f64, f64, usize) {
+    let s = known_spec();
+    let (mut water_ss, mut water_n, mut solvent_ss, mut solvent_n) = (0.0, 0, 0.0, 0);
+    let mut flagged = 0;
+    for seed in 1..=12 {
+        let mut rows = known_rows(0.05, seed);
+        if old_weights {
+            for r in rows.iter_mut() {
+                let vm = 1000.0 / ((r.w / KNOWN_M[0] + (1.0 - r.w) / KNOWN_M[1]) * r.rho);
+                r.u_rho = Some(r.rho / vm);
+            }
+        }
+        let f = fit(&s, &rows).unwrap();
+        check(seed, &f);
+        let r = &f.report;
+        flagged += r.outliers.iter().filter(|&&i| !r.residuals[i].pure).count();
+        for res in r.residuals.iter().filter(|res| !res.pure) {
+            if res.x < 0.15 {
+                water_ss += res.studentized.powi(2);
+                water_n += 1;
+            } else if res.x > 0.5 {
+                solvent_ss += res.studentized.powi(2);
+                solvent_n += 1;
+            }
+        }
+    }
+    (
+        (water_ss / water_n as f64).sqrt(),
+        (solvent_ss / solvent_n as f64).sqrt(),
+        flagged,
+    )
+}
+
+// Equal density noise of 0.05 kg/m³ and no u column, 12 seeds. With the
+// density-space weights every row's studentized residual has the same
+// spread: the rms of the studentized residuals of the water-rich rows
+// (216 of them) and of the solvent-rich rows (144) must both be near 1
+// (0.8–1.25; the rms of ~150 standard normal values has a standard error
+// of about 0.06). Flags must not exceed what chance gives: the limit is
+// as rare as |z| > 3 (0.27 %), ~1.7 expected among the 612 mixture rows;
+// at most 5 allowed in all, never two in one fit. Every coefficient must
+// lie within 4 of its standard uncertainties of the truth, with u(a_k0)
+// below 0.06 cm³/mol. Seen: rms 1.02 (water-rich) and 1.03
+// (solvent-rich), 2 rows flagged. The former rule (every V^E weighted
+// equally) fails the same check: the solvent-rich rows' V^E is ~4× more
+// sensitive to a density error, so their rms was 1.76 against 0.59 and
+// 12 rows were flagged.
+#[test]
+fn equal_density_noise_without_uncertainties_gives_no_spurious_outliers() {
+    let (water, solvent, flagged) = studentized_balance(false, |seed, f| {
+        let r = &f.report;
+        assert!(!r.weighted);
+        assert!(r.outliers.len() <= 1, "seed {seed}: {r}");
+        // The pure curves pass through the means of two readings per
+        // temperature; their errors (sd ≈ 0.035 kg/m³) reach the mixture
+        // rows near the pure ends, where V^E cannot absorb them, so the
+        // residual sd runs somewhat above the 0.05 put in (0.045–0.073
+        // seen; 0.042–0.059 with the true pure curves given).
+        assert!(
+            (0.035..0.08).contains(&r.residual_sd_rho),
+            "seed {seed}: {}",
+            r.residual_sd_rho
+        );
+        for c in &r.coefficients {
+            let truth = KNOWN_A[c.k][c.j];
+            assert!(
+                (c.value - truth).abs() <= 4.0 * c.u,
+                "seed {seed}: a_{}{} = {} ± {} against {truth}",
+                c.k,
+                c.j,
+                c.value,
+                c.u
+            );
+            if c.j == 0 {
+                assert!(c.u < 0.06, "seed {seed}: u(a_{}0) = {}", c.k, c.u);
+            }
+        }
+    });
+    assert!(flagged <= 5, "{flagged} rows flagged over 12 seeds");
+    assert!(
+        (0.8..1.25).contains(&water) && (0.8..1.25).contains(&solvent),
+        "rms studentized residual: water-rich {water}, solvent-rich {solvent}"
+    );
+    let (water, solvent, flagged) = studentized_balance(true, |_, _| {});
+    assert!(
+        solvent > 2.0 * water && flagged > 5,
+        "former weighting: water-rich {water}, solvent-rich {solvent}, {flagged} flagged"
+    );
+}
+
+// A fit without uncertainties and one with the same u(ρ) on every row
+// weight the rows alike up to a constant, which cancels: same term choice,
+// coefficients, covariance, studentized residuals and flags.
+#[test]
+fn unweighted_fit_equals_a_fit_with_equal_stated_uncertainties() {
+    for (spec, rows) in [
+        (known_spec(), known_rows(0.05, 7)),
+        (spec(), reference_rows(0.05, 2)),
+    ] {
+        let plain: Vec<FitRow> = rows.iter().map(|r| FitRow::new(r.w, r.rho, r.t)).collect();
+        let equal: Vec<FitRow> = plain.iter().map(|r| r.with_u_rho(0.03)).collect();
+        let a = fit(&spec, &plain).unwrap();
+        let b = fit(&spec, &equal).unwrap();
+        let (ra, rb) = (&a.report, &b.report);
+        assert!(!ra.weighted && rb.weighted);
+        assert_eq!((ra.terms, ra.t_order), (rb.terms, rb.t_order));
+        let close = |x: f64, y: f64| (x - y).abs() <= 1e-9 * x.abs().max(y.abs()).max(1e-12);
+        for (ca, cb) in ra.coefficients.iter().zip(&rb.coefficients) {
+            assert!(close(ca.value, cb.value), "{ca:?} vs {cb:?}");
+            assert!(close(ca.u, cb.u), "{ca:?} vs {cb:?}");
+        }
+        let (va, vb) = (a.model.covariance(), b.model.covariance());
+        for (x, y) in va.iter().zip(vb.iter()) {
+            assert!((x - y).abs() <= 1e-9 * va.amax(), "{x} vs {y}");
+        }
+        for (x, y) in ra.residuals.iter().zip(&rb.residuals) {
+            assert!(
+                (x.studentized - y.studentized).abs() < 1e-8,
+                "row {}: {} vs {}",
+                x.row + 1,
+                x.studentized,
+                y.studentized
+            );
+        }
+        assert_eq!(ra.outliers, rb.outliers);
+        // χ² of the weighted fit is that of the unweighted one over u².
+        let chi = |r: &meniscus::kernel::fit::FitReport| {
+            r.aicc_table.iter().find(|e| e.chosen).unwrap().rss.unwrap()
+        };
+        assert!(close(chi(ra) / 0.03f64.powi(2), chi(rb)));
     }
 }
 
@@ -721,7 +930,7 @@ fn tangent_cross_check_agrees_with_the_fit_inside_the_range() {
     let (s, rows) = methanol_water();
     let f = fit(&s, &rows).unwrap();
     let xs = [0.1, 0.3, 0.5, 0.7, 0.9];
-    let cc = f.model.cross_check(20.0, 0.01, &xs, 7).unwrap();
+    let cc = f.model.cross_check(20.0, 0.01, &xs, Some(7)).unwrap();
     assert_eq!(cc.rows.len(), xs.len());
     for r in &cc.rows {
         // A 7-point local quadratic on data rounded to 0.1 kg/m³ resolves
@@ -736,11 +945,224 @@ fn tangent_cross_check_agrees_with_the_fit_inside_the_range() {
         text.contains("V̄ methanol fitted") && text.contains("tangent"),
         "{text}"
     );
+    // The adaptive default on the same 2 % grid, with the fit's density sd
+    // (mostly the table's 0.1 kg/m³ rounding).
+    // The rows are dense and smooth, so the windows grow to average the
+    // rounding (12 rows seen at every x).
+    let auto = f.model.cross_check(20.0, 0.01, &xs, None).unwrap();
+    for r in &auto.rows {
+        assert!(r.local.points >= 9, "{auto}");
+        for k in 0..2 {
+            assert!(
+                r.difference[k].abs() < 0.05,
+                "x={} V̄{k}: {:?}\n{auto}",
+                r.x,
+                r
+            );
+        }
+    }
     // The free function refuses too little data.
-    let e = tangent_intercept(&rows[..2], &s.components, 20.0, 0.01, &[0.5], 5).unwrap_err();
+    let e = tangent_intercept(
+        &rows[..2],
+        &s.components,
+        20.0,
+        0.01,
+        &[0.5],
+        TangentWindow::Rows(5),
+    )
+    .unwrap_err();
     assert!(e.to_string().contains("3 or more compositions"), "{e}");
-    let e = tangent_intercept(&rows, &s.components, 20.0, 0.01, &[0.5], 2).unwrap_err();
+    let e = tangent_intercept(
+        &rows,
+        &s.components,
+        20.0,
+        0.01,
+        &[0.5],
+        TangentWindow::Rows(2),
+    )
+    .unwrap_err();
     assert!(e.to_string().contains("at least 3 rows"), "{e}");
+    for bad in [-0.1, f64::NAN, f64::INFINITY] {
+        let e = tangent_intercept(
+            &rows,
+            &s.components,
+            20.0,
+            0.01,
+            &[0.5],
+            TangentWindow::Adaptive { density_sd: bad },
+        )
+        .unwrap_err();
+        assert!(
+            e.to_string().contains("non-negative number of kg/m³"),
+            "{e}"
+        );
+    }
+}
+
+/// Rows of the reference equation at 10, 20, 30 °C on a coarse grid of
+/// mass fractions w = 0, 1/steps, …, 1, noise-free.
+fn coarse_reference_rows(steps: usize) -> Vec<FitRow> {
+    let ew = EthanolWater::new();
+    let mut rows = Vec::new();
+    for t in TEMPS {
+        for i in 0..=steps {
+            let w = i as f64 / steps as f64;
+            rows.push(FitRow::new(w, ew.rho(w, t), t));
+        }
+    }
+    rows
+}
+
+/// Molar volume of ethanol–water at 20 °C from OIML R 22, cm³/mol.
+fn reference_vm(x: f64) -> f64 {
+    let ew = EthanolWater::new();
+    let [c1, c2] = ew.components().clone();
+    let w = w_from_x(x, c1.molar_mass, c2.molar_mass);
+    let mbar = 1.0 / (w / c1.molar_mass + (1.0 - w) / c2.molar_mass);
+    1000.0 * mbar / ew.rho(w, 20.0)
+}
+
+/// Largest |V_m‴| on [a, b] from central differences of the reference.
+fn reference_vm3_max(a: f64, b: f64) -> f64 {
+    let h = 0.002;
+    (0..=200)
+        .map(|i| {
+            let x = (a + (b - a) * i as f64 / 200.0).clamp(2.0 * h, 1.0 - 2.0 * h);
+            let d3 = (reference_vm(x + 2.0 * h) - 2.0 * reference_vm(x + h)
+                + 2.0 * reference_vm(x - h)
+                - reference_vm(x - 2.0 * h))
+                / (2.0 * h * h * h);
+            d3.abs()
+        })
+        .fold(0.0, f64::max)
+}
+
+/// Bound on the errors of V̄₁ and V̄₂ from the tangent at x0 of the
+/// quadratic through exact V_m at the three mole fractions `xs`: the
+/// error functional annihilates quadratics, so by Peano's kernel theorem
+/// it is ∫K(s) V_m‴(s) ds, at most max|V_m‴| ∫|K|, with
+/// K(s) = Σ cᵢ (xᵢ − s)₊²/2 − (x0 − s)₊²/2 − g (x0 − s)₊, the cᵢ the
+/// tangent's weights on the three values and g = 1 − x0 or −x0.
+fn three_point_bound(xs: [f64; 3], x0: f64) -> [f64; 2] {
+    let mut l = [0.0; 3];
+    let mut dl = [0.0; 3];
+    for i in 0..3 {
+        let (j, k) = ((i + 1) % 3, (i + 2) % 3);
+        let den = (xs[i] - xs[j]) * (xs[i] - xs[k]);
+        l[i] = (x0 - xs[j]) * (x0 - xs[k]) / den;
+        dl[i] = (2.0 * x0 - xs[j] - xs[k]) / den;
+    }
+    let a = xs.iter().copied().fold(x0, f64::min);
+    let b = xs.iter().copied().fold(x0, f64::max);
+    let v3 = reference_vm3_max(a, b);
+    let pos = |v: f64| v.max(0.0);
+    [1.0 - x0, -x0].map(|g| {
+        let n = 4000;
+        let ds = (b - a) / n as f64;
+        let mut integral = 0.0;
+        for m in 0..n {
+            let s = a + (m as f64 + 0.5) * ds;
+            let mut k = -pos(x0 - s).powi(2) / 2.0 - g * pos(x0 - s);
+            for i in 0..3 {
+                k += (l[i] + g * dl[i]) * pos(xs[i] - s).powi(2) / 2.0;
+            }
+            integral += k.abs() * ds;
+        }
+        v3 * integral
+    })
+}
+
+// The cross-check on coarse grids of exact reference data (OIML R 22,
+// 10 % and 5 % mass steps: mole-fraction steps up to 0.17 and 0.11), at
+// 20 °C, x = 0.05 … 0.9, against the exact partial molar volumes.
+//
+// Tolerance, per x and component: with exact data the least biased local
+// quadratic is the one through the 3 nearest compositions; its error is
+// pure truncation, bounded by Peano's kernel theorem with max|V_m‴| over
+// the window (three_point_bound; margin 1.25 for the finite-difference
+// V_m‴). The adaptive rule keeps a wider window only while its interval
+// V̄ ± Γu overlaps that of every narrower one, so its tangent lies within
+// Γ(u + u₃) of the 3-row one (u from the fit's density sd, here its
+// misfit to the reference, 0.080 and 0.007 kg/m³). Tolerance = 1.25 ×
+// bound + Γ(u + u₃). Largest errors seen: 0.32 cm³/mol at x = 0.05 on the
+// 10 % grid (bound 0.67: the minimum of V̄ ethanol near x ≈ 0.08 is
+// narrower than the grid), 0.19 at x = 0.2, and 0.054 on the 5 % grid.
+// The former default of 7 rows fails the same tolerance (errors up to
+// 0.73 and 0.42 cm³/mol).
+#[test]
+fn adaptive_tangent_window_follows_the_reference_on_coarse_grids() {
+    let ew = EthanolWater::new();
+    let comps = ew.components().clone();
+    let (m1, m2) = (comps[0].molar_mass, comps[1].molar_mass);
+    let xs: Vec<f64> = (1..=18).map(|i| i as f64 * 0.05).collect();
+    for steps in [10, 20] {
+        let rows = coarse_reference_rows(steps);
+        let f = fit(&spec(), &rows).unwrap();
+        let sd = f.model.density_residual_sd();
+        let cc = f.model.cross_check(20.0, 0.01, &xs, None).unwrap();
+        assert_eq!(cc.window, TangentWindow::Adaptive { density_sd: sd });
+        let fixed = f.model.cross_check(20.0, 0.01, &xs, Some(7)).unwrap();
+        let at20: Vec<FitRow> = rows.iter().copied().filter(|r| r.t == 20.0).collect();
+        let (mut worst, mut fixed_fails) = (0.0f64, 0);
+        for (r, r7) in cc.rows.iter().zip(&fixed.rows) {
+            let x0 = r.x;
+            let exact = ew
+                .partial_molar_volumes(w_from_x(x0, m1, m2), 20.0)
+                .unwrap();
+            let mut near = at20.clone();
+            near.sort_by(|a, b| {
+                let da = (x_from_w(a.w, m1, m2) - x0).abs();
+                da.total_cmp(&(x_from_w(b.w, m1, m2) - x0).abs())
+            });
+            let near = &near[..3];
+            let t3 = tangent_intercept(
+                near,
+                &comps,
+                20.0,
+                0.01,
+                &[x0],
+                TangentWindow::Adaptive { density_sd: sd },
+            )
+            .unwrap()[0];
+            let near_x = [0, 1, 2].map(|i| x_from_w(near[i].w, m1, m2));
+            let bound = three_point_bound(near_x, x0);
+            let three = [t3.v1, t3.v2];
+            let chosen = [r.local.v1, r.local.v2];
+            let seven = [r7.local.v1, r7.local.v2];
+            for k in 0..2 {
+                let e3 = (three[k] - exact[k]).abs();
+                assert!(
+                    e3 <= 1.25 * bound[k] + 1e-6,
+                    "{steps} steps, x = {x0}, V̄{k}: 3-row error {e3} beyond bound {}",
+                    bound[k]
+                );
+                let tol = 1.25 * bound[k] + ADAPTIVE_GAMMA * (r.local.u[k] + t3.u[k]);
+                let e = (chosen[k] - exact[k]).abs();
+                assert!(
+                    e <= tol,
+                    "{steps} steps, x = {x0}, V̄{k}: error {e} beyond {tol} ({} rows)\n{cc}",
+                    r.local.points
+                );
+                worst = worst.max(e);
+                if (seven[k] - exact[k]).abs() > tol {
+                    fixed_fails += 1;
+                }
+            }
+            assert!(r.local.points >= 3 && r.local.x_min <= x0 && r.local.x_max >= x0);
+            // Sparse rows where V_m bends sharply: the window stays narrow.
+            if x0 <= 0.3 {
+                assert!(r.local.points <= 5, "{cc}");
+            }
+        }
+        assert!(
+            worst < if steps == 10 { 0.35 } else { 0.06 },
+            "{steps}: {worst}"
+        );
+        assert!(
+            fixed_fails >= 5,
+            "{steps} steps: 7 rows failed only {fixed_fails} times"
+        );
+    }
 }
 
 // ---- save and load ----------------------------------------------------------------
@@ -883,6 +1305,86 @@ fn report_prints_every_section() {
     }
 }
 
+/// The longest run of consecutive digits in `text`.
+fn longest_digit_run(text: &str) -> usize {
+    let (mut best, mut run) = (0, 0);
+    for c in text.chars() {
+        run = if c.is_ascii_digit() { run + 1 } else { 0 };
+        best = best.max(run);
+    }
+    best
+}
+
+// Numbers in the report carry sensible precision: compositions and
+// temperatures to 6 significant digits without trailing zeros (69.98 %
+// mass reads w = 0.6998, not 0.6998000000000001), densities and their
+// residuals to 0.001 kg/m³, cm³/mol to 4 decimals, coefficients to 6
+// significant digits with 2-digit uncertainties: nowhere a run of more
+// than 8 digits, nor the 0000…1 / 9999… tails of binary rounding.
+#[test]
+fn report_numbers_have_sensible_precision() {
+    let (s, rows) = demo_rows(false);
+    let mut f = fit(&s, &rows).unwrap();
+    // Flag row 12 (w = 69.98 %, 15 °C) by pushing it 0.5 kg/m³ down
+    // (terms fixed: AICc would spend extra terms on so large an error).
+    let mut bad = rows.clone();
+    bad[11].rho -= 0.5;
+    let mut fixed = s.clone();
+    fixed.terms = TermChoice::Fixed(5);
+    fixed.t_order = OrderChoice::Fixed(1);
+    let g = fit(&fixed, &bad).unwrap();
+    assert!(g.report.outliers.contains(&11), "{}", g.report);
+    f.report.warnings.push("a warning".into());
+    for (text, name) in [
+        (f.report.to_string(), "demo"),
+        (g.report.to_string(), "demo with an outlier"),
+        (
+            fit(&spec(), &reference_rows(0.05, 1))
+                .unwrap()
+                .report
+                .to_string(),
+            "reference",
+        ),
+        (
+            fit(&methanol_water().0, &methanol_water().1)
+                .unwrap()
+                .report
+                .to_string(),
+            "methanol",
+        ),
+    ] {
+        assert!(longest_digit_run(&text) <= 8, "{name}:\n{text}");
+        assert!(
+            !text.contains("0000") && !text.contains("9999"),
+            "{name}:\n{text}"
+        );
+    }
+    let text = g.report.to_string();
+    assert!(
+        text.contains("row 12: w = 0.6998, t = 15 °C, residual -0.38"),
+        "{text}"
+    );
+    assert!(
+        text.contains("largest:        row 12 (w = 0.6998, t = 15 °C): -0.38"),
+        "{text}"
+    );
+    assert!(
+        text.contains("valid range: w 0 to 1, t 15 to 35 °C"),
+        "{text}"
+    );
+    assert!(
+        text.contains("2-propanol (fitted, t₀ = 25 °C):  c0 = 781.080 ± 0.027"),
+        "{text}"
+    );
+    assert!(text.contains("(t − 25 °C)^j"), "{text}");
+    let text = f.report.to_string();
+    assert!(
+        text.contains("    0   0       -3.42113     0.0044\n"),
+        "{text}"
+    );
+    assert!(text.contains("sd of density:  0.048 kg/m³"), "{text}");
+}
+
 // ---- plots --------------------------------------------------------------------------------
 
 #[cfg(feature = "plot")]
@@ -962,4 +1464,72 @@ mod plots {
             .to_string()
             .contains("plot size"));
     }
+}
+
+// ---- the bundled demo data ------------------------------------------------------------
+
+/// The rows of `demo-data/solvent_densities.csv` (invented readings of
+/// the fictional Fenwick Reach Solvents QA lab), with or without their
+/// stated density uncertainty.
+fn demo_rows(with_u: bool) -> (FitSpec, Vec<FitRow>) {
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/demo-data/solvent_densities.csv"
+    );
+    let text = std::fs::read_to_string(path).unwrap();
+    let comps = [
+        Component::new("2-propanol", 60.096),
+        Component::new("water", 18.015),
+    ];
+    let rows = text
+        .lines()
+        .skip(1)
+        .map(|line| {
+            let f: Vec<f64> = line
+                .split(',')
+                .skip(1)
+                .map(|c| c.parse().unwrap())
+                .collect();
+            let r = FitRow::from_basis(RowBasis::Abm, f[0], f[2], f[1], &comps).unwrap();
+            if with_u {
+                r.with_u_rho(f[3])
+            } else {
+                r
+            }
+        })
+        .collect();
+    (FitSpec::new("2-propanol–water", comps), rows)
+}
+
+// Without its u column (every u is 0.05 kg/m³) the demo must fit exactly
+// as with it. Weighting every row's V^E equally, the kernel once flagged
+// two rows near x = 0.41 at studentized −4.5 and −3.1 there.
+#[test]
+fn demo_data_fit_the_same_without_their_uncertainty_column() {
+    let (s, with_u) = demo_rows(true);
+    let (_, plain) = demo_rows(false);
+    let a = fit(&s, &with_u).unwrap();
+    let b = fit(&s, &plain).unwrap();
+    let (ra, rb) = (&a.report, &b.report);
+    assert!(ra.weighted && !rb.weighted);
+    assert_eq!((rb.terms, rb.t_order), (5, 1), "{rb}");
+    assert_eq!((ra.terms, ra.t_order), (rb.terms, rb.t_order));
+    for (ca, cb) in ra.coefficients.iter().zip(&rb.coefficients) {
+        assert!(
+            (ca.value - cb.value).abs() <= 1e-9 * ca.value.abs(),
+            "{ca:?} {cb:?}"
+        );
+    }
+    assert_eq!(ra.outliers, rb.outliers);
+    let worst = |r: &meniscus::kernel::fit::FitReport| {
+        r.residuals
+            .iter()
+            .filter(|x| !x.pure)
+            .map(|x| x.studentized.abs())
+            .fold(0.0, f64::max)
+    };
+    assert!((worst(ra) - worst(rb)).abs() < 1e-8);
+    assert!(worst(rb) < 3.5, "{rb}");
+    let text = rb.to_string();
+    assert!(text.contains("assumed equally uncertain"), "{text}");
 }

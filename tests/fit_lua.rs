@@ -417,7 +417,7 @@ fn uncertainties_and_cross_check_come_from_the_fit() {
     assert_eq!(x.get::<f64>("u").unwrap(), ve.u);
     // The tangent cross-check beside the fitted values.
     let cc = table(&h, "m:crosscheck{x = {0.1, 0.3, 0.6}, t = 25}");
-    let kc = k.cross_check(25.0, 0.05, &[0.1, 0.3, 0.6], 7).unwrap();
+    let kc = k.cross_check(25.0, 0.05, &[0.1, 0.3, 0.6], None).unwrap();
     let v1: Vec<f64> = cc
         .get::<Table>("v1")
         .unwrap()

@@ -45,8 +45,6 @@ use crate::kernel::{self, Component, Mixture};
 /// Name of the user value that carries the fit on a mixture userdata.
 const FIT_KEY: &str = "meniscus.fit";
 
-/// Rows each local quadratic of the tangent cross-check uses by default.
-pub const CROSSCHECK_WINDOW: usize = 7;
 /// Data rows within this many kelvin of the cross-check temperature take
 /// part in it by default.
 pub const CROSSCHECK_T_TOL_C: f64 = 0.05;
@@ -986,8 +984,8 @@ fn crosscheck(lua: &Lua, info: &FitInfo, arg: &Value) -> mlua::Result<Table> {
     };
     let t_tol = opt_number(f.get("t_tol")?.as_ref(), func, "t_tol")?.unwrap_or(CROSSCHECK_T_TOL_C);
     let window = match opt_number(f.get("window")?.as_ref(), func, "window")? {
-        None => CROSSCHECK_WINDOW,
-        Some(w) if w.fract() == 0.0 && (3.0..=10_000.0).contains(&w) => w as usize,
+        None => None,
+        Some(w) if w.fract() == 0.0 && (3.0..=10_000.0).contains(&w) => Some(w as usize),
         Some(w) => {
             return Err(runtime(format!(
                 "{func}: window must be a whole number of rows, at least 3, got {}",
@@ -1272,7 +1270,9 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
                  \"density\", \"t\"); density in kg/m³, t in °C; t may also be one number\n\
                  for data all at one temperature.\n\
                  weight (column of 1/u², (kg/m³)⁻²) or u_density (column of standard\n\
-                 uncertainties, kg/m³): optional, for a weighted fit.\n\
+                 uncertainties, kg/m³): optional, for a weighted fit. Without them every\n\
+                 density is taken to have the same uncertainty (a least-squares fit in\n\
+                 density; the same coefficients as with a constant u_density).\n\
                  components: the two components, the one whose composition is given first,\n\
                  molar masses in g/mol.\n\
                  terms: \"auto\" (default: 1 to 12 Redlich–Kister terms, chosen by AICc) or\n\
@@ -1307,7 +1307,9 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
             format!(
                 "The fit report: data, pure-component curves, Redlich–Kister coefficients\n\
                  a_kj ± u, residual sd of density and V^E, √(χ²/dof) for weighted fits,\n\
-                 outliers (|studentized residual| > 3), condition number, the AICc table of\n\
+                 outliers (|studentized residual| above the Student-t value as rare as\n\
+                 3σ under normal errors: about 3.3 for 40 degrees of freedom, more for\n\
+                 fewer), condition number, the AICc table of\n\
                  the term selection, warnings, the data's source. print(m:report()).\n\
                  {FITTED_ONLY}"
             ),
@@ -1356,13 +1358,18 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
         ),
         (
             "mixture:crosscheck",
-            "m:crosscheck{x={…}, t=…[, t_tol=0.05, window=7]} → {x, v1, u1, v1_tangent, v2, u2, v2_tangent, rows, text}",
+            "m:crosscheck{x={…}, t=…[, t_tol=0.05, window=n]} → {x, v1, u1, v1_tangent, v2, u2, v2_tangent, rows, text}",
             format!(
                 "The fitted partial molar volumes beside model-free ones: at each mole\n\
-                 fraction x a quadratic through the molar volumes of the window nearest data\n\
-                 rows (within t_tol K of t) gives the tangent, whose intercepts at x = 1 and\n\
+                 fraction x a quadratic through the molar volumes of the nearest data rows\n\
+                 (within t_tol K of t) gives the tangent, whose intercepts at x = 1 and\n\
                  x = 0 are V̄₁ and V̄₂. Agreement within a few u says the data support the\n\
-                 model's shape there. print(c.text) shows the table. {FITTED_ONLY}"
+                 model's shape there. By default the number of rows is chosen at each x\n\
+                 from the data: 3 to 12 nearest rows, grown while the tangents of the wider\n\
+                 windows stay within the density scatter of the narrower ones (few rows\n\
+                 where the grid is coarse or V_m bends sharply, more where it is dense).\n\
+                 window = n fixes it at the n nearest rows (at least 3). c.rows gives the\n\
+                 rows used at each x. print(c.text) shows the table. {FITTED_ONLY}"
             ),
             CROSSCHECK_KEYS,
         ),

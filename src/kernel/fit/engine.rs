@@ -6,10 +6,10 @@ use nalgebra::{DMatrix, DVector};
 
 use super::lsq::{self, Reduced, Solution};
 use super::model::{Estimate, Excess, FittedMixture, Provenance, PureCurve, PureOrigin};
-use super::report::{AiccEntry, Coefficient, FitReport, PureReport, RowResidual};
+use super::report::{num, AiccEntry, Coefficient, FitReport, PureReport, RowResidual};
 use super::{
     check_component, Fit, FitRow, FitSpec, OrderChoice, PureSource, TermChoice, MAX_PURE_DEGREE,
-    MAX_TERMS, MAX_T_ORDER, OUTLIER_LIMIT, T_DISTINCT_C,
+    MAX_TERMS, MAX_T_ORDER, T_DISTINCT_C,
 };
 use crate::kernel::error::{Error, Result};
 use crate::kernel::model::{Mixture, Validity};
@@ -43,7 +43,7 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
     let mut warnings = Vec::new();
     let mut pure_curves = Vec::with_capacity(2);
     let mut pure_reports = Vec::with_capacity(2);
-    let mut pure_row_stats: Vec<(usize, f64, f64)> = Vec::new();
+    let mut pure_row_stats: Vec<RowStat> = Vec::new();
     for i in 0..2 {
         let (curve, report, stats) = pure_curve(
             spec,
@@ -86,11 +86,14 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
         xs.push(x);
         taus.push(r.t - t0);
         y.push(vm - x * v1 - (1.0 - x) * v2);
-        // u(V^E) = V_m u(ρ)/ρ; the weight's square root is its inverse.
-        sw.push(match r.u_rho {
-            Some(u) => r.rho / (vm * u),
-            None => 1.0,
-        });
+        // The density is what was measured: a density error δρ moves the
+        // row's V^E by (∂V^E/∂ρ) δρ = −(V_m/ρ) δρ, so u(V^E) = V_m u(ρ)/ρ and
+        // the weight's square root is its inverse. Without stated u(ρ) every
+        // row is taken to have the same (unknown) u(ρ), set to 1 here; its
+        // size cancels from the coefficients and the covariance, which is
+        // scaled by the observed scatter, so this is a least-squares fit in
+        // density and σ comes out in kg/m³.
+        sw.push(r.rho / (vm * r.u_rho.unwrap_or(1.0)));
     }
 
     // ---- candidates ------------------------------------------------------
@@ -277,6 +280,7 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
             rho_residual: r.rho - model.rho(r.w, r.t),
             leverage: 0.0,
             studentized: 0.0,
+            limit: f64::INFINITY,
             outlier: false,
         })
         .collect();
@@ -296,16 +300,19 @@ pub fn fit(spec: &FitSpec, rows: &[FitRow]) -> Result<Fit> {
         // V^E and density residuals have opposite signs (ρ = 1000 M̄/V_m);
         // report the studentized residual with the density's sign.
         rr.studentized = -studentize(sw[ii] * e, sigma, h, dof);
+        rr.limit = super::outlier_limit(dof);
         ss_ve += e * e;
         ss_rho += rr.rho_residual * rr.rho_residual;
     }
-    for (i, h, st) in pure_row_stats {
-        residuals[i].leverage = h;
-        residuals[i].studentized = st;
+    for st in pure_row_stats {
+        let r = &mut residuals[st.row];
+        r.leverage = st.leverage;
+        r.studentized = st.studentized;
+        r.limit = st.limit;
     }
     let mut outliers = Vec::new();
     for r in residuals.iter_mut() {
-        r.outlier = r.studentized.abs() > OUTLIER_LIMIT;
+        r.outlier = r.studentized.abs() > r.limit;
         if r.outlier {
             outliers.push(r.row);
         }
@@ -516,13 +523,19 @@ fn span(v: &[f64]) -> (f64, f64) {
         })
 }
 
-/// A pure curve, its report and (row index, leverage, studentized
-/// residual) of each of its rows.
-type PureFit = (PureCurve, PureReport, Vec<(usize, f64, f64)>);
+/// Leverage, studentized residual and outlier limit of one pure row.
+struct RowStat {
+    row: usize,
+    leverage: f64,
+    studentized: f64,
+    limit: f64,
+}
+
+/// A pure curve, its report and the statistics of each of its rows.
+type PureFit = (PureCurve, PureReport, Vec<RowStat>);
 
 /// Fits (or takes) the density curve of pure component `i`; returns the
-/// curve, its report and (row index, leverage, studentized residual) of
-/// its rows.
+/// curve, its report and the statistics of each of its rows.
 #[allow(clippy::too_many_arguments)]
 fn pure_curve(
     spec: &FitSpec,
@@ -579,9 +592,12 @@ fn pure_curve(
     let (lo, hi) = span(&temps);
     if lo > mix_span.0 + T_DISTINCT_C || hi < mix_span.1 - T_DISTINCT_C {
         warnings.push(format!(
-            "the density curve of pure {name} is fitted over {lo} to {hi} °C and extrapolated to \
+            "the density curve of pure {name} is fitted over {} to {} °C and extrapolated to \
              the mixture rows' {} to {} °C",
-            mix_span.0, mix_span.1
+            num(lo),
+            num(hi),
+            num(mix_span.0),
+            num(mix_span.1)
         ));
     }
     let deg = MAX_PURE_DEGREE.min(distinct - 1);
@@ -637,7 +653,12 @@ fn pure_curve(
         let e = rows[r].rho - fitted;
         ss += e * e;
         let h = sol.leverage(&row);
-        stats.push((r, h, studentize(sw[ii] * e, sigma2.sqrt(), h, dof)));
+        stats.push(RowStat {
+            row: r,
+            leverage: h,
+            studentized: studentize(sw[ii] * e, sigma2.sqrt(), h, dof),
+            limit: super::outlier_limit(dof),
+        });
     }
     let coefficients = (0..p)
         .map(|j| Estimate {

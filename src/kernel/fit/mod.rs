@@ -30,10 +30,20 @@
 //! that floor, so exact fits tie and the smaller model wins; on equal AICc
 //! the candidate listed first (fewer coefficients, then lower order) wins.
 //!
-//! Weights: with density uncertainties u(ρ) on the rows, each row's V^E
-//! has u(V^E) = V_m u(ρ)/ρ and weight 1/u(V^E)²; without, unit weights.
-//! Either way the covariance of the coefficients is σ²(JᵀWJ)⁻¹ with
-//! σ² = χ²/(N − p) (p = n(q+1)), so it reflects the scatter actually seen.
+//! Weights: the density is what is measured, and a density error δρ
+//! moves a row's excess volume by (∂V^E/∂ρ) δρ = −(V_m/ρ) δρ, which is
+//! about five times larger at the low-density, high-molar-volume end of a
+//! water–alcohol range than at the water end. Each row's V^E therefore
+//! has u(V^E) = V_m u(ρ)/ρ and weight 1/u(V^E)² = (ρ/(V_m u(ρ)))².
+//! With density uncertainties u(ρ) on the rows those are used. Without,
+//! every row is assumed to have the same, unknown u(ρ): the weights are
+//! (ρ/V_m)², so the fit is in effect a least-squares fit in density (to
+//! first order), gives the same coefficients as a fit with any constant
+//! stated u(ρ), and its residual scale σ and studentized residuals are in
+//! density terms (σ estimates the density scatter in kg/m³). Either way
+//! the covariance of the coefficients is σ²(JᵀWJ)⁻¹ with σ² = χ²/(N − p)
+//! (p = n(q+1)), so it reflects the scatter actually seen. Pure-component
+//! curves are fitted in density directly, weighted by 1/u(ρ)² or equally.
 
 mod crosscheck;
 mod engine;
@@ -41,8 +51,12 @@ mod io;
 mod lsq;
 mod model;
 mod report;
+mod stats;
 
-pub use crosscheck::{tangent_intercept, CrossCheck, PmvComparison, TangentPmv};
+pub use crosscheck::{
+    tangent_intercept, CrossCheck, PmvComparison, TangentPmv, TangentWindow, ADAPTIVE_GAMMA,
+    ADAPTIVE_WINDOWS,
+};
 pub use engine::fit;
 pub use io::FORMAT_VERSION;
 pub use model::{Estimate, FittedMixture, Isotherm, Provenance, PureOrigin};
@@ -62,10 +76,24 @@ pub const MAX_T_ORDER: usize = 2;
 pub const MAX_PURE_DEGREE: usize = 2;
 /// Most coefficients a given pure-density polynomial may have.
 pub const MAX_PURE_COEFFS: usize = 6;
-/// Rows whose externally studentized residual exceeds this in magnitude
-/// are flagged as outliers. Under normal errors |r| > 3 happens for about
-/// 0.3 % of rows, so a flag is worth a look but is not proof of a bad row.
+/// The outlier limit in normal-distribution terms: a row is flagged when
+/// its externally studentized residual is as unlikely as |z| > 3 is under
+/// normal errors (about 0.27 % of rows, so a flag is worth a look but is
+/// not proof of a bad row). See [`outlier_limit`] for the actual limit.
 pub const OUTLIER_LIMIT: f64 = 3.0;
+
+/// The |studentized residual| above which a row of a fit with `dof`
+/// residual degrees of freedom is flagged: the Student-t quantile with
+/// dof − 1 degrees of freedom (the distribution of an externally
+/// studentized residual) and the two-sided tail probability of |z| >
+/// [`OUTLIER_LIMIT`]. About 3.3 with 40 degrees of freedom, 4.5 with 10,
+/// 19 with 3; infinite (nothing can be flagged) below 2.
+pub fn outlier_limit(dof: usize) -> f64 {
+    if dof < 2 {
+        return f64::INFINITY;
+    }
+    stats::t_quantile_two_sided(stats::NORMAL_TAIL_3, (dof - 1) as f64)
+}
 /// Temperatures closer than this (°C) count as one temperature when
 /// counting distinct temperatures.
 pub const T_DISTINCT_C: f64 = 0.01;

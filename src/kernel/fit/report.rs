@@ -63,12 +63,19 @@ pub struct RowResidual {
     pub rho_residual: f64,
     /// Leverage (diagonal of the hat matrix) in its own fit.
     pub leverage: f64,
-    /// Externally studentized residual: the weighted residual divided by
+    /// Externally studentized residual: the residual in density terms
+    /// (the V^E residual times ρ/V_m, over u(ρ) when stated) divided by
     /// the residual standard deviation of the fit without that row and by
     /// √(1 − leverage), signed like the density residual; 0 when undefined
     /// (leverage 1, or fewer than two residual degrees of freedom).
     pub studentized: f64,
-    /// |studentized| > [`OUTLIER_LIMIT`](super::OUTLIER_LIMIT).
+    /// The |studentized| above which this row is flagged:
+    /// [`outlier_limit`](super::outlier_limit) of the residual degrees of
+    /// freedom of its own fit (the excess fit, or its pure curve); infinite
+    /// when nothing can be flagged (too few degrees of freedom, given
+    /// curve).
+    pub limit: f64,
+    /// |studentized| > `limit`.
     pub outlier: bool,
 }
 
@@ -106,7 +113,9 @@ pub struct FitReport {
     pub rows: usize,
     /// Rows with 0 < w < 1 (those the excess fit uses).
     pub mixture_rows: usize,
-    /// Whether rows carried density uncertainties (weighted fit).
+    /// Whether rows carried density uncertainties (weighted by them);
+    /// otherwise every row was assumed to have the same, unknown density
+    /// uncertainty (see the module doc of [`crate::kernel::fit`](mod@crate::kernel::fit)).
     pub weighted: bool,
     /// Redlich–Kister terms used.
     pub terms: usize,
@@ -159,30 +168,87 @@ fn order_name(q: usize) -> &'static str {
     }
 }
 
+/// `v` rounded to `digits` significant digits: plain notation for
+/// 10⁻³ ≤ |v| < 10⁶, else scientific (`1.23457e-5`); trailing zeros kept
+/// (they are digits of the value).
+pub(crate) fn sig(v: f64, digits: usize) -> String {
+    let digits = digits.max(1);
+    if v == 0.0 {
+        return "0".into();
+    }
+    if !v.is_finite() {
+        return format!("{v}");
+    }
+    // The exponent after rounding (9.9999996 rounds to 1.00000e1).
+    let sci = format!("{:.*e}", digits - 1, v);
+    let exp: i32 = sci
+        .rsplit_once('e')
+        .and_then(|(_, e)| e.parse().ok())
+        .unwrap_or(0);
+    if (-3..6).contains(&exp) {
+        let decimals = (digits as i32 - 1 - exp).max(0) as usize;
+        format!("{v:.decimals$}")
+    } else {
+        sci
+    }
+}
+
+/// Like [`sig`] with trailing zeros (and a bare decimal point) dropped:
+/// for compositions and temperatures, which were given as read.
+pub(crate) fn sig_trim(v: f64, digits: usize) -> String {
+    let s = sig(v, digits);
+    let (mant, exp) = match s.split_once('e') {
+        Some((m, e)) => (m.to_string(), format!("e{e}")),
+        None => (s.clone(), String::new()),
+    };
+    let mant = if mant.contains('.') {
+        mant.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        mant
+    };
+    format!("{mant}{exp}")
+}
+
+/// A composition or temperature as printed: 6 significant digits,
+/// trailing zeros dropped (w = 0.6998, t = 15).
+pub(crate) fn num(v: f64) -> String {
+    sig_trim(v, 6)
+}
+
+/// A fitted coefficient with its standard uncertainty: the value to 6
+/// significant digits (coefficients are correlated, so they are not cut
+/// to their uncertainty) and the uncertainty to 2.
+fn coef(value: f64, u: f64) -> (String, String) {
+    (sig(value, 6), sig(u, 2))
+}
+
 impl fmt::Display for FitReport {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let [c1, c2] = &self.components;
         writeln!(f, "Fit of {} ({} + {})", self.name, c1.name, c2.name)?;
         writeln!(
             f,
-            "  data: {} rows ({} mixture, {} pure {}, {} pure {}), {}",
-            self.rows,
-            self.mixture_rows,
-            self.pure[0].rows,
-            c1.name,
-            self.pure[1].rows,
-            c2.name,
-            if self.weighted {
-                "weighted by the stated density uncertainties"
-            } else {
-                "unit weights"
-            }
+            "  data: {} rows ({} mixture, {} pure {}, {} pure {})",
+            self.rows, self.mixture_rows, self.pure[0].rows, c1.name, self.pure[1].rows, c2.name,
         )?;
+        if self.weighted {
+            writeln!(f, "  weights: weighted by the stated density uncertainties")?;
+        } else {
+            writeln!(
+                f,
+                "  weights: no density uncertainties given, so every density is assumed \
+                 equally uncertain:\n    rows weighted by (ρ/V_m)², a least-squares fit in \
+                 density; residual scale and studentized residuals in density terms"
+            )?;
+        }
         let d = self.data_range;
         writeln!(
             f,
             "  valid range: w {} to {}, t {} to {} °C",
-            d.w_min, d.w_max, d.t_min, d.t_max
+            num(d.w_min),
+            num(d.w_max),
+            num(d.t_min),
+            num(d.t_max)
         )?;
         writeln!(f)?;
         writeln!(
@@ -194,19 +260,20 @@ impl fmt::Display for FitReport {
                 PureOrigin::Fitted => "fitted",
                 PureOrigin::Given => "given",
             };
-            write!(f, "  {} ({origin}, t₀ = {:.3} °C):", p.component, p.t0)?;
+            write!(f, "  {} ({origin}, t₀ = {} °C):", p.component, num(p.t0))?;
             for (m, c) in p.coefficients.iter().enumerate() {
+                let (v, u) = coef(c.value, c.u);
                 if c.u > 0.0 {
-                    write!(f, "  c{m} = {:.6e} ± {:.2e}", c.value, c.u)?;
+                    write!(f, "  c{m} = {v} ± {u}")?;
                 } else {
-                    write!(f, "  c{m} = {:.6e}", c.value)?;
+                    write!(f, "  c{m} = {v}")?;
                 }
             }
             writeln!(f)?;
             if let Some(sd) = p.residual_sd {
                 writeln!(
                     f,
-                    "    {} rows at {} temperatures, residual sd {:.4} kg/m³",
+                    "    {} rows at {} temperatures, residual sd {:.3} kg/m³",
                     p.rows, p.distinct_temperatures, sd
                 )?;
             }
@@ -214,8 +281,8 @@ impl fmt::Display for FitReport {
         writeln!(f)?;
         writeln!(
             f,
-            "Excess molar volume V^E = x(1−x) Σ A_k(t) (2x−1)^k, cm³/mol, A_k(t) = Σ a_kj (t − {:.3} °C)^j",
-            self.t_center
+            "Excess molar volume V^E = x(1−x) Σ A_k(t) (2x−1)^k, cm³/mol, A_k(t) = Σ a_kj (t − {} °C)^j",
+            num(self.t_center)
         )?;
         writeln!(
             f,
@@ -236,20 +303,17 @@ impl fmt::Display for FitReport {
         )?;
         writeln!(
             f,
-            "  {:>3} {:>3} {:>16} {:>12}",
+            "  {:>3} {:>3} {:>14} {:>10}   (cm³/mol/K^j)",
             "k", "j", "a_kj", "u(a_kj)"
         )?;
         for c in &self.coefficients {
-            writeln!(
-                f,
-                "  {:>3} {:>3} {:>16.8e} {:>12.3e}",
-                c.k, c.j, c.value, c.u
-            )?;
+            let (v, u) = coef(c.value, c.u);
+            writeln!(f, "  {:>3} {:>3} {:>14} {:>10}", c.k, c.j, v, u)?;
         }
         writeln!(f)?;
         writeln!(f, "Residuals ({} degrees of freedom)", self.dof)?;
-        writeln!(f, "  sd of V^E:      {:.3e} cm³/mol", self.residual_sd_ve)?;
-        writeln!(f, "  sd of density:  {:.4} kg/m³", self.residual_sd_rho)?;
+        writeln!(f, "  sd of V^E:      {:.4} cm³/mol", self.residual_sd_ve)?;
+        writeln!(f, "  sd of density:  {:.3} kg/m³", self.residual_sd_rho)?;
         if let Some(b) = self.birge_ratio {
             writeln!(
                 f,
@@ -259,40 +323,39 @@ impl fmt::Display for FitReport {
         if let Some(r) = self.residuals.get(self.largest_residual) {
             writeln!(
                 f,
-                "  largest:        row {} (w = {}, t = {} °C): {:+.4} kg/m³",
+                "  largest:        row {} (w = {}, t = {} °C): {:+.3} kg/m³",
                 r.row + 1,
-                r.w,
-                r.t,
+                num(r.w),
+                num(r.t),
                 r.rho_residual
             )?;
         }
         writeln!(
             f,
-            "  condition number of the design: {:.3e}",
+            "  condition number of the design: {:.2e}",
             self.condition_number
         )?;
+        let rule = format!(
+            "|studentized residual| above {:.2} for mixture rows, the Student-t value \
+             as rare as {}σ under normal errors",
+            super::outlier_limit(self.dof),
+            super::OUTLIER_LIMIT
+        );
         if self.outliers.is_empty() {
-            writeln!(
-                f,
-                "  no outliers (|studentized residual| > {})",
-                super::OUTLIER_LIMIT
-            )?;
+            writeln!(f, "  no outliers ({rule})")?;
         } else {
-            writeln!(
-                f,
-                "  outliers (|studentized residual| > {}):",
-                super::OUTLIER_LIMIT
-            )?;
+            writeln!(f, "  outliers ({rule}):")?;
             for &i in &self.outliers {
                 let r = &self.residuals[i];
                 writeln!(
                     f,
-                    "    row {}: w = {}, t = {} °C, residual {:+.4} kg/m³, studentized {:+.2}",
+                    "    row {}: w = {}, t = {} °C, residual {:+.3} kg/m³, studentized {:+.2} (limit {:.2})",
                     i + 1,
-                    r.w,
-                    r.t,
+                    num(r.w),
+                    num(r.t),
                     r.rho_residual,
-                    r.studentized
+                    r.studentized,
+                    r.limit
                 )?;
             }
         }
@@ -300,15 +363,14 @@ impl fmt::Display for FitReport {
         writeln!(f, "Term selection (AICc; smallest wins)")?;
         writeln!(
             f,
-            "  {:>5} {:>5} {:>6} {:>12} {:>12}",
+            "  {:>5} {:>5} {:>6} {:>12} {:>10}",
             "terms", "order", "coefs", "χ²", "AICc"
         )?;
         for e in &self.aicc_table {
-            let rss = e.rss.map_or("-".to_string(), |v| format!("{v:.4e}"));
-            let aicc = e.aicc.map_or("-".to_string(), |v| format!("{v:.3}"));
-            writeln!(
-                f,
-                "  {:>5} {:>5} {:>6} {:>12} {:>12} {}{}",
+            let rss = e.rss.map_or("-".to_string(), |v| sig(v, 5));
+            let aicc = e.aicc.map_or("-".to_string(), |v| format!("{v:.2}"));
+            let line = format!(
+                "  {:>5} {:>5} {:>6} {:>12} {:>10} {}{}",
                 e.terms,
                 e.t_order,
                 e.parameters,
@@ -320,7 +382,8 @@ impl fmt::Display for FitReport {
                 } else {
                     format!(" ({})", e.note)
                 }
-            )?;
+            );
+            writeln!(f, "{}", line.trim_end())?;
         }
         if !self.warnings.is_empty() {
             writeln!(f)?;
@@ -330,5 +393,31 @@ impl fmt::Display for FitReport {
             }
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_print_with_sensible_digits() {
+        assert_eq!(num(69.98 / 100.0), "0.6998");
+        assert_eq!(num(0.6998000000000001), "0.6998");
+        assert_eq!(num(1.0), "1");
+        assert_eq!(num(0.0), "0");
+        assert_eq!(num(15.0), "15");
+        assert_eq!(num(24.987654321), "24.9877");
+        assert_eq!(num(1.0 / 24.0), "0.0416667");
+        assert_eq!(num(1e-4), "1e-4");
+        assert_eq!(sig(781.0800000001, 6), "781.080");
+        assert_eq!(sig(-3.421130183, 6), "-3.42113");
+        assert_eq!(sig(-0.000875, 6), "-8.75000e-4");
+        assert_eq!(sig(0.00845172, 6), "0.00845172");
+        assert_eq!(sig(4.5e-6, 6), "4.50000e-6");
+        assert_eq!(sig(9.9999996, 6), "10.0000");
+        assert_eq!(sig(325_870.4, 5), "325870");
+        assert_eq!(sig(2.5e7, 2), "2.5e7");
+        assert_eq!(sig(0.0123456, 2), "0.012");
     }
 }
