@@ -134,9 +134,14 @@ fn table_keys(t: &Table, functions_only: bool) -> Vec<String> {
 
 fn member_candidates(lua: &Lua, path: &str, method: bool) -> Vec<String> {
     match resolve(lua, path) {
-        Some(Value::Table(t)) => table_keys(&t, method),
+        Some(Value::Table(t)) => {
+            // A read-only view (a plugin namespace) is empty itself.
+            let t = super::readonly::inner(lua, &t).unwrap_or(t);
+            table_keys(&t, method)
+        }
         Some(Value::UserData(ud)) if ud.is::<MixtureUd>() => methods_of(lua, "mixture"),
         Some(Value::UserData(ud)) if ud.is::<Vector>() => methods_of(lua, "vector"),
+        Some(Value::UserData(ud)) if ud.is::<super::sheet::SheetUd>() => methods_of(lua, "sheet"),
         Some(Value::String(_)) if method => string_methods(lua),
         _ => Vec::new(),
     }

@@ -5,7 +5,7 @@
 //! directory, then a rename), so an error never leaves a half-written file.
 //!
 //! Lua side: `files.read(path)`, `files.write(path, text)`,
-//! `files.exists(path)`. Other namespaces (sheets, plots) use
+//! `files.exists(path)`, `files.mkdir(path)`. Other namespaces (sheets, plots) use
 //! [`resolve_path`] and [`read_text`], and write through
 //! [`crate::io::write_atomically`].
 
@@ -113,6 +113,52 @@ pub fn resolve_path(lua: &Lua, path: impl AsRef<Path>, write: bool) -> mlua::Res
     Ok(canonical)
 }
 
+/// Creates the directory `path` and any missing parents, after checking
+/// that the nearest existing ancestor lies under an allowed root and that
+/// the missing part has only plain names (no `..`). Returns the canonical
+/// directory.
+pub fn make_dir(lua: &Lua, path: impl AsRef<Path>) -> mlua::Result<PathBuf> {
+    let path = path.as_ref();
+    let r = roots(lua)?;
+    if path.as_os_str().is_empty() {
+        return Err(runtime("empty path"));
+    }
+    let full = if path.is_absolute() {
+        path.to_path_buf()
+    } else {
+        r.workdir.join(path)
+    };
+    let mut base = full.as_path();
+    let mut missing: Vec<&std::ffi::OsStr> = Vec::new();
+    while !base.exists() {
+        match (base.components().next_back(), base.parent()) {
+            (Some(Component::Normal(n)), Some(parent)) => {
+                missing.push(n);
+                base = parent;
+            }
+            _ => {
+                return Err(runtime(format!(
+                    "cannot create '{}': only plain directory names may be created (no '..')",
+                    path.display()
+                )))
+            }
+        }
+    }
+    let base = base
+        .canonicalize()
+        .map_err(|e| runtime(format!("cannot create '{}': {e}", path.display())))?;
+    if !r.roots.iter().any(|root| base.starts_with(root)) {
+        return Err(outside(path));
+    }
+    let target = missing.iter().rev().fold(base, |p, n| p.join(n));
+    std::fs::create_dir_all(&target)
+        .map_err(|e| runtime(format!("cannot create '{}': {e}", path.display())))?;
+    if !target.is_dir() {
+        return Err(runtime(format!("'{}' is not a directory", path.display())));
+    }
+    Ok(target)
+}
+
 /// Reads a text file a script named, after [`resolve_path`]; refuses files
 /// larger than the memory limit before reading them.
 pub fn read_text(lua: &Lua, path: &str) -> mlua::Result<String> {
@@ -187,6 +233,17 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         })?;
         Ok(resolved.exists())
     })?;
+    let mkdir = lua.create_function(|lua, p: Value| {
+        let p = path_arg(&p, "files.mkdir")?;
+        make_dir(lua, &p).map_err(|e| {
+            runtime(format!(
+                "files.mkdir: {}",
+                super::errors::describe(&e).message
+            ))
+        })?;
+        Ok(())
+    })?;
+    ns.set("mkdir", mkdir.clone())?;
     ns.set("read", read.clone())?;
     ns.set("write", write.clone())?;
     ns.set("exists", exists.clone())?;
@@ -195,11 +252,13 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
     tag(lua, Value::Function(read), "files.read")?;
     tag(lua, Value::Function(write), "files.write")?;
     tag(lua, Value::Function(exists), "files.exists")?;
+    tag(lua, Value::Function(mkdir), "files.mkdir")?;
     add_help(
         lua,
         "files",
         "files (namespace)",
-        "files.read(path), files.write(path, text), files.exists(path).\n\
+        "files.read(path), files.write(path, text), files.exists(path),\n\
+         files.mkdir(path).\n\
          Only paths under the working directory or a directory allowed with\n\
          --allow-path; writes replace the file atomically.",
     )?;
@@ -216,6 +275,13 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         "Writes text to a file under the working directory or an allowed path,\n\
          atomically: a temporary file in the same directory, then renamed, so\n\
          an error never leaves a half-written file.",
+    )?;
+    add_help(
+        lua,
+        "files.mkdir",
+        "files.mkdir(path)",
+        "Creates a directory and any missing parents (like mkdir -p), under the\n\
+         working directory or an allowed path; nothing happens if it exists.",
     )?;
     add_help(
         lua,

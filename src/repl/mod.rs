@@ -141,6 +141,8 @@ impl Session {
                 match globals.get::<mlua::Value>(name.as_str()) {
                     Ok(mlua::Value::Function(_)) => out.push_str(&format!("{name}()\n")),
                     Ok(mlua::Value::Table(t)) if name != "_G" => {
+                        // A plugin namespace is a read-only view: list what it shows.
+                        let t = crate::lua::readonly::inner(self.host.lua(), &t).unwrap_or(t);
                         let mut members: Vec<String> = t
                             .pairs::<mlua::Value, mlua::Value>()
                             .filter_map(|p| p.ok())
@@ -178,23 +180,49 @@ impl Session {
         out
     }
 
-    /// `:plugins`.
+    /// `:plugins`: the plugins loaded (and those skipped, with the
+    /// reason), then the directories searched and the plugin files in them.
     fn plugins(&self) -> String {
-        let dirs = &self.host.options().plugin_dirs;
-        if dirs.is_empty() {
-            return "no plugin directories (add one with --plugins DIR)\n".to_string();
-        }
         let mut out = String::new();
+        let loaded = self.host.plugins();
+        if loaded.is_empty() {
+            out.push_str("no plugins loaded\n");
+        } else {
+            out.push_str("loaded plugins:\n");
+            let width = loaded.iter().map(|p| p.name.len()).max().unwrap_or(0);
+            for p in &loaded {
+                out.push_str(&format!(
+                    "  {:width$}  {}  {}\n  {:width$}  from {}\n",
+                    p.name,
+                    p.version,
+                    p.description,
+                    "",
+                    p.path.display()
+                ));
+            }
+        }
+        for problem in self.host.plugin_problems() {
+            out.push_str(&format!("{problem}\n"));
+        }
+        let dirs = self.host.plugin_dirs();
+        if dirs.is_empty() {
+            out.push_str("no plugin directories (add one with --plugins DIR)\n");
+            return out;
+        }
+        out.push_str("plugin directories, searched in this order (add more with --plugins DIR):\n");
         for dir in dirs {
-            out.push_str(&format!("{}\n", dir.display()));
-            match plugin_files(dir) {
-                Ok(files) if files.is_empty() => out.push_str("  (no .lua files)\n"),
+            out.push_str(&format!("  {}\n", dir.display()));
+            match plugin_files(&dir) {
+                Ok(files) if files.is_empty() => out.push_str("    (no .lua files)\n"),
                 Ok(files) => {
                     for f in files {
-                        out.push_str(&format!("  {f}\n"));
+                        out.push_str(&format!("    {f}\n"));
                     }
                 }
-                Err(e) => out.push_str(&format!("  (cannot read: {e})\n")),
+                Err(e) if e.kind() == io::ErrorKind::NotFound => {
+                    out.push_str("    (does not exist)\n")
+                }
+                Err(e) => out.push_str(&format!("    (cannot read: {e})\n")),
             }
         }
         out
@@ -220,22 +248,18 @@ fn global_names(host: &Host) -> Vec<String> {
     names
 }
 
-/// Plugin files in one directory: `*.lua` files and subdirectories with an
-/// `init.lua`, sorted.
+/// Plugin files in one directory, as the host finds them (`*.lua` files
+/// and subdirectories with an `init.lua`), named relative to it, sorted.
 fn plugin_files(dir: &std::path::Path) -> io::Result<Vec<String>> {
-    let mut out = Vec::new();
-    for entry in std::fs::read_dir(dir)? {
-        let path = entry?.path();
-        let name = path.file_name().map(|n| n.to_string_lossy().into_owned());
-        let Some(name) = name else { continue };
-        if path.is_dir() && path.join("init.lua").is_file() {
-            out.push(format!("{name}/init.lua"));
-        } else if path.extension().is_some_and(|e| e == "lua") {
-            out.push(name);
-        }
-    }
-    out.sort();
-    Ok(out)
+    Ok(crate::lua::plugins::plugin_files(dir)?
+        .iter()
+        .map(|p| {
+            p.strip_prefix(dir)
+                .unwrap_or(p)
+                .to_string_lossy()
+                .into_owned()
+        })
+        .collect())
 }
 
 /// Describes the global value at a dotted path (`math`, `string.format`).
