@@ -624,7 +624,9 @@ fn compile_expression(
     let globals = lua.globals();
     let mut deps = Vec::new();
     for n in names {
-        if sheet.has_column(&n) {
+        // The column's own name counts, so that a formula using itself is
+        // refused as a cycle rather than as an unknown name.
+        if sheet.has_column(&n) || n == column {
             deps.push(n);
         } else if globals.raw_get::<LuaValue>(n.as_str())?.is_nil() && n != "_G" && n != "load" {
             return Err(runtime(format!(
