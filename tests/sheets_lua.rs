@@ -356,6 +356,48 @@ fn grids_long_and_wide_with_gaps() {
     fails_with(&h, "sheet.grid{rows = {}, cols = {}, fn = print, colour = 1}", &["unknown key 'colour'"]);
 }
 
+#[test]
+fn vectorized_grids_give_the_same_table_with_one_call_per_row() {
+    let h = host();
+    eval(
+        &h,
+        "calls = 0
+         local rows = {name = 'abv', values = {0, 50, 100}}
+         local cols = {name = 't', values = {0, 10, 20}}
+         local function point(abv, t)
+           local ok, r = pcall(m.hydrometer, m, {abv = abv, t = t})
+           if ok then return r.abv end
+         end
+         p = sheet.grid{rows = rows, cols = cols, fn = point, layout = 'wide'}
+         v = sheet.grid{rows = rows, cols = cols, layout = 'wide', vectorized = true,
+           fn = function(abv, ts)
+             calls = calls + 1
+             local ok, r = pcall(m.hydrometer, m, {abv = abv, t = ts})
+             if ok then return r.abv end
+             local out = {}
+             for j = 1, #ts do out[j] = point(abv, ts[j]) end
+             return out
+           end}
+         l = sheet.grid{rows = rows, cols = cols, vectorized = true, value = 'x',
+           fn = function(abv, ts) return ts * 0 + abv end}",
+    );
+    assert_eq!(num(&h, "calls"), 3.0);
+    let (p, v) = (kernel_sheet(&h, "p"), kernel_sheet(&h, "v"));
+    assert_eq!(p, v);
+    assert_eq!(v.get(2, "t=0").unwrap(), CellRef::Empty, "100 % vol read at 0 °C");
+    assert_eq!(num(&h, "l:get(9, 'x')"), 100.0);
+    let grid = |f: &str| {
+        format!(
+            "sheet.grid{{rows = {{name = 'a', values = {{1, 2}}}}, cols = {{name = 'b', values = {{1, 2, 3}}}}, vectorized = true, fn = {f}}}"
+        )
+    };
+    fails_with(&h, &grid("function(a, bs) return vec{1, 2} end"), &["vector of 2 values for 3"]);
+    fails_with(&h, &grid("function(a, bs) return {1, 2, 3, 4} end"), &["key number 4"]);
+    fails_with(&h, &grid("function(a, bs) return {1, 'x', 3} end"), &["[2]", "must return a number"]);
+    fails_with(&h, &grid("function(a, bs) return 5 end"), &["vector or an array"]);
+    fails_with(&h, &grid("function(a, bs) error('boom') end"), &["a = 1, b = 1", "whole row", "boom"]);
+}
+
 // ------------------------------------------------------------ memory
 
 #[test]

@@ -33,10 +33,22 @@ local function true_abv(reading, t)
   return nil
 end
 
+-- One bulk call per reading, over every temperature at once (much faster
+-- than a call per point); a reading with a gap somewhere falls back to
+-- point by point.
+local function true_abv_row(reading, ts)
+  local ok, s = pcall(m.hydrometer, m, {abv = reading, t = ts})
+  if ok then return s.abv end
+  local out = {}
+  for j = 1, #ts do out[j] = true_abv(reading, ts[j]) end
+  return out
+end
+
 local grid = {
   rows = {name = "reading", values = readings},
   cols = {name = "t", values = temps},
-  fn = true_abv,
+  fn = true_abv_row,
+  vectorized = true,
   layout = layout,
 }
 if layout == "long" then grid.value = "abv" end
@@ -46,7 +58,19 @@ table:write_csv("out/hydrometer_correction.csv")
 local points = #readings * #temps
 print(("true strength (%% vol at 20 °C) for %d readings × %d temperatures = %d points, %s layout"):format(
   #readings, #temps, points, layout))
-print(table)
+-- An excerpt: every 10 % vol at 10, 15, 20, 25 and 30 °C.
+local excerpt = sheet.new{"reading"}
+local shown_t = {10, 15, 20, 25, 30}
+for _, t in ipairs(shown_t) do excerpt:set_column("t=" .. t, {}) end
+for _, reading in ipairs({10, 20, 30, 40, 50, 60, 70, 80, 90}) do
+  local row = {reading = reading}
+  for _, t in ipairs(shown_t) do
+    local ok, s = pcall(m.hydrometer, m, {abv = reading, t = t})
+    row["t=" .. t] = ok and s.abv or ""
+  end
+  excerpt:add(row)
+end
+print(excerpt)
 print(("%d points have no value (a reading no ethanol–water mixture gives at that temperature)"):format(gaps))
 local r = m:hydrometer{abv = 40, t = 10}
 print(("example: a reading of 40 %% vol at 10 °C is %.2f %% vol true strength"):format(r.abv))

@@ -1285,29 +1285,117 @@ fn grid(lua: &Lua, arg: LuaValue) -> mlua::Result<AnyUserData> {
     check_size(lua, func, nrows, ncols, bytes)?;
     let mut progress = Progress::new("building the table");
     let mut on_progress = |done: usize, total: usize| progress.update(done, total);
-    let value = |r: f64, c: f64| -> Result<Option<f64>, String> {
-        match value_fn.call::<LuaValue>((r, c)) {
-            Ok(LuaValue::Nil) => Ok(None),
-            Ok(LuaValue::Integer(i)) => Ok(Some(i as f64)),
-            Ok(LuaValue::Number(x)) => Ok(Some(x)),
-            Ok(other) => Err(format!(
-                "fn must return a number, or nil for no value, got {}",
-                describe_value(&other)
-            )),
-            Err(e) => Err(describe(&e).message),
+    let vectorized = match f.get("vectorized") {
+        None | Some(LuaValue::Boolean(false)) => false,
+        Some(LuaValue::Boolean(true)) => true,
+        Some(other) => {
+            return Err(runtime(format!(
+                "{func}: vectorized must be true or false, got {}",
+                describe_value(other)
+            )))
         }
     };
-    let sheet = if wide {
-        g.wide_partial(value, &mut on_progress)
+    // Vectorized: one call per row value with every column value, cached
+    // for the points of that row (the grid visits points row by row).
+    let col_vector = if vectorized {
+        Some(vector::create(lua, col_values.clone())?)
     } else {
-        g.long_partial(&value_name, value, &mut on_progress)
+        None
+    };
+    let ncols_grid = col_values.len();
+    let mut row_cache: Vec<Option<f64>> = Vec::new();
+    let mut point = 0usize;
+    let mut value = |r: f64, c: f64| -> Result<Option<f64>, String> {
+        let Some(cols) = &col_vector else {
+            return match value_fn.call::<LuaValue>((r, c)) {
+                Ok(v) => grid_number(&v),
+                Err(e) => Err(describe(&e).message),
+            };
+        };
+        let j = point % ncols_grid;
+        point += 1;
+        if j == 0 {
+            let v = value_fn
+                .call::<LuaValue>((r, cols.clone()))
+                .map_err(|e| format!("fn for the whole row failed: {}", describe(&e).message))?;
+            row_cache = grid_row(&v, ncols_grid)?;
+        }
+        Ok(row_cache[j])
+    };
+    let sheet = if wide {
+        g.wide_partial(&mut value, &mut on_progress)
+    } else {
+        g.long_partial(&value_name, &mut value, &mut on_progress)
     }
     .map_err(|e| kernel_err(func, e))?;
     drop(progress);
     lua.create_userdata(SheetUd::new(lua, sheet))
 }
 
-const GRID_KEYS: &[&str] = &["rows", "cols", "fn", "layout", "value"];
+/// One table value from `fn`: a number, or nil for none.
+fn grid_number(v: &LuaValue) -> Result<Option<f64>, String> {
+    match v {
+        LuaValue::Nil => Ok(None),
+        LuaValue::Integer(i) => Ok(Some(*i as f64)),
+        LuaValue::Number(x) => Ok(Some(*x)),
+        other => Err(format!(
+            "fn must return a number, or nil for no value, got {}",
+            describe_value(other)
+        )),
+    }
+}
+
+/// A row of table values from a vectorized `fn`: a vector of `n` values,
+/// or an array with keys 1..n (nil for no value).
+fn grid_row(v: &LuaValue, n: usize) -> Result<Vec<Option<f64>>, String> {
+    match v {
+        LuaValue::UserData(ud) if ud.is::<vector::Vector>() => {
+            let vec = ud.borrow::<vector::Vector>().map_err(|e| e.to_string())?;
+            if vec.len() != n {
+                return Err(format!(
+                    "fn returned a vector of {} values for {n} column values",
+                    vec.len()
+                ));
+            }
+            Ok(vec.as_slice().iter().map(|&x| Some(x)).collect())
+        }
+        LuaValue::Table(t) => {
+            let mut out = vec![None; n];
+            let mut bad: Option<String> = None;
+            t.for_each::<LuaValue, LuaValue>(|k, x| {
+                if bad.is_some() {
+                    return Ok(());
+                }
+                match k {
+                    LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => {
+                        match grid_number(&x) {
+                            Ok(v) => out[i as usize - 1] = v,
+                            Err(m) => bad = Some(format!("[{i}]: {m}")),
+                        }
+                    }
+                    other => {
+                        bad = Some(format!(
+                            "fn returned a table with the key {} for {n} column values (keys 1 to {n})",
+                            describe_value(&other)
+                        ))
+                    }
+                }
+                Ok(())
+            })
+            .map_err(|e| describe(&e).message)?;
+            match bad {
+                Some(m) => Err(m),
+                None => Ok(out),
+            }
+        }
+        other => Err(format!(
+            "a vectorized fn returns a vector or an array of values (nil for none), got {}",
+            describe_value(other)
+        )),
+    }
+}
+
+const GRID_KEYS: &[&str] = &["rows", "cols", "fn", "layout", "value", "vectorized"];
 
 /// Registers the `sheet` namespace and its help.
 pub fn register(lua: &Lua) -> mlua::Result<()> {
@@ -1385,7 +1473,7 @@ fn help_entries() -> Vec<(&'static str, &'static str, String)> {
         ),
         (
             "sheet.grid",
-            "sheet.grid{rows = {name = …, values = …}, cols = {name = …, values = …},\n           fn = function(r, c) … end [, layout = \"long\"|\"wide\"] [, value = \"name\"]} → sheet",
+            "sheet.grid{rows = {name = …, values = …}, cols = {name = …, values = …},\n           fn = function(r, c) … end [, layout = \"long\"|\"wide\"] [, value = \"name\"]\n           [, vectorized = true]} → sheet",
             format!(
                 "A two-way table: fn(row value, column value) for every pair; values are\n\
                  arrays or vectors (e.g. range(0, 100, 0.1)). fn returns a number, or nil\n\
@@ -1396,6 +1484,9 @@ fn help_entries() -> Vec<(&'static str, &'static str, String)> {
                  layout = \"wide\": a first column <rows.name>, then one column per column\n\
                  value, named like \"t=15.5\" (read it with s:get(i, \"t=15.5\") or a\n\
                  function formula; such names are not Lua identifiers).\n\
+                 vectorized = true: fn(row value, vector of all column values) is called\n\
+                 once per row value and returns a vector or an array of values (nil for\n\
+                 none), so that it can use bulk calls such as m:density{{abv = a, t = ts}}.\n\
                  Shows a progress bar on a terminal for large tables.\n\n{TABLE_CAUTION}"
             ),
         ),
