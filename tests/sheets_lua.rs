@@ -225,9 +225,12 @@ fn formula_errors_name_column_row_and_place() {
 fn formulas_cannot_assign_globals_or_reach_the_real_environment() {
     let h = host();
     eval(&h, "s = sheet.new{'x'}; s:add{x = 1}; count = 0");
+    // An assignment inside an expression never reaches the global.
+    eval(&h, "s:formula('y', '(function() count = count + 1 end)()')");
+    assert_eq!(num(&h, "count"), 0.0);
     fails_with(
         &h,
-        "s:formula('y', '(function() count = count + 1 end)()')",
+        "s:formula('y', '(function() other_global = 1 end)()')",
         &["read-only"],
     );
     fails_with(

@@ -62,6 +62,26 @@ struct FormulaDef {
     positional: bool,
     /// The expression text, for `s:formulas()`.
     source: Option<String>,
+    /// For expressions: the globals the expression reads, held in locals
+    /// of the compiled chunk (a lookup through the read-only environment
+    /// per row would cost more than the rest of a simple formula), and the
+    /// function that sets them, called with their current values before
+    /// each evaluation; so globals are read live, once per evaluation.
+    globals: Option<(Vec<String>, Table, Function)>,
+}
+
+impl FormulaDef {
+    /// Reads the globals the expression uses into its locals.
+    fn refresh(&self) -> mlua::Result<()> {
+        if let Some((names, env, set)) = &self.globals {
+            let mut values = MultiValue::new();
+            for n in names {
+                values.push_back(env.get::<LuaValue>(n.as_str())?);
+            }
+            set.call::<()>(values)?;
+        }
+        Ok(())
+    }
 }
 
 /// The Lua userdata of a sheet: the kernel sheet, the formulas its formula
@@ -423,6 +443,7 @@ fn call_with(f: &Function, args: &[LuaValue]) -> mlua::Result<LuaValue> {
 impl Evaluator for LuaEval<'_> {
     fn eval_row(&mut self, formula: FormulaId, row: RowView<'_>) -> Result<Value, String> {
         let def = self.def(formula)?;
+        def.refresh().map_err(|e| describe(&e).message)?;
         self.one(&def, row)
     }
 
@@ -432,9 +453,14 @@ impl Evaluator for LuaEval<'_> {
         rows: RowsView<'_>,
         out: &mut ColumnSink,
     ) -> Result<(), EvalError> {
+        let start = rows.range().start;
         let def = self.def(formula).map_err(|message| EvalError {
-            row: rows.range().start,
+            row: start,
             message,
+        })?;
+        def.refresh().map_err(|e| EvalError {
+            row: start,
+            message: describe(&e).message,
         })?;
         for row in rows.iter() {
             match self.one(&def, row) {
@@ -605,7 +631,7 @@ fn compile_expression(
     sheet: &Sheet,
     column: &str,
     expr: &str,
-) -> mlua::Result<(Function, Vec<String>)> {
+) -> mlua::Result<(FormulaDef, Vec<String>)> {
     let func = "s:formula";
     let chunk_name = format!("=formula \"{column}\"");
     // One expression, nothing after it: `return (<expr>\n)` only parses
@@ -623,6 +649,7 @@ fn compile_expression(
     let names = referenced_names(expr);
     let globals = lua.globals();
     let mut deps = Vec::new();
+    let mut used_globals = Vec::new();
     for n in names {
         // The column's own name counts, so that a formula using itself is
         // refused as a cycle rather than as an unknown name.
@@ -640,18 +667,35 @@ fn compile_expression(
                     .collect::<Vec<_>>()
                     .join(", ")
             )));
+        } else {
+            used_globals.push(n);
         }
     }
     let params = deps.join(", ");
     let env = super::readonly::private_env(lua, true)?;
+    // The expression stays on line 1, so that messages cite formula:1.
+    let (locals, setter) = if used_globals.is_empty() {
+        (String::new(), "function() end".to_string())
+    } else {
+        let list = used_globals.join(", ");
+        (format!("local {list}; "), format!("function(...) {list} = ... end"))
+    };
     let maker = lua
-        .load(format!("return function({params}) return ({expr}\n) end"))
+        .load(format!(
+            "{locals}return function({params}) return ({expr}\n) end, {setter}"
+        ))
         .set_name(&chunk_name)
         .set_mode(ChunkMode::Text)
-        .set_environment(env)
+        .set_environment(env.clone())
         .into_function()?;
-    let f: Function = maker.call(())?;
-    Ok((f, deps))
+    let (f, set): (Function, Function) = maker.call(())?;
+    let def = FormulaDef {
+        func: f,
+        positional: true,
+        source: Some(expr.to_string()),
+        globals: (!used_globals.is_empty()).then_some((used_globals, env, set)),
+    };
+    Ok((def, deps))
 }
 
 // ------------------------------------------------------------ the userdata
@@ -771,15 +815,7 @@ fn define_formula(
                 )));
             }
             let expr = s.to_str()?.to_string();
-            let (f, deps) = compile_expression(lua, &this.sheet, name, &expr)?;
-            (
-                FormulaDef {
-                    func: f,
-                    positional: true,
-                    source: Some(expr),
-                },
-                deps,
-            )
+            compile_expression(lua, &this.sheet, name, &expr)?
         }
         LuaValue::Function(f) => {
             let deps = match deps {
@@ -798,6 +834,7 @@ fn define_formula(
                     func: f.clone(),
                     positional: false,
                     source: None,
+                    globals: None,
                 },
                 deps,
             )
