@@ -42,10 +42,19 @@ fn measure(reps: usize, mut f: impl FnMut()) -> (Duration, Duration, Option<Dura
     (wall[0], wall[reps / 2], cpu.first().copied())
 }
 
-fn report(what: &str, (min, median, cpu): (Duration, Duration, Option<Duration>), n: usize, unit: &str) {
+fn report(
+    what: &str,
+    (min, median, cpu): (Duration, Duration, Option<Duration>),
+    n: usize,
+    unit: &str,
+) {
     let per = |d: Duration| d.as_secs_f64() * 1e9 / n as f64;
     let cpu = match cpu {
-        Some(c) => format!("  CPU min {:>7.2} ms = {:>6.0} ns/{unit}", c.as_secs_f64() * 1e3, per(c)),
+        Some(c) => format!(
+            "  CPU min {:>7.2} ms = {:>6.0} ns/{unit}",
+            c.as_secs_f64() * 1e3,
+            per(c)
+        ),
         None => String::new(),
     };
     println!(
@@ -126,11 +135,21 @@ fn main() {
     let points = 81_081;
     let per_point = "g = sheet.grid{rows = {name = 'reading', values = readings},
                      cols = {name = 't', values = temps}, fn = point, layout = 'wide'}";
-    report("point by point (fn per point)", measure(5, || run(&h, per_point)), points, "point");
+    report(
+        "point by point (fn per point)",
+        measure(5, || run(&h, per_point)),
+        points,
+        "point",
+    );
     let vectorized = "g = sheet.grid{rows = {name = 'reading', values = readings},
                       cols = {name = 't', values = temps}, fn = row, vectorized = true,
                       layout = 'wide'}";
-    report("vectorized (fn per reading)", measure(5, || run(&h, vectorized)), points, "point");
+    report(
+        "vectorized (fn per reading)",
+        measure(5, || run(&h, vectorized)),
+        points,
+        "point",
+    );
     let path = dir.path().join("hydrometer.csv");
     run(&h, &format!("csv_path = {:?}", path.display().to_string()));
     report(

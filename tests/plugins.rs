@@ -62,13 +62,13 @@ fn assert_skipped(h: &Host, file: &str, fragments: &[&str]) {
         .find(|p| p.path.file_name().is_some_and(|n| n == file) || p.path.ends_with(file))
         .unwrap_or_else(|| panic!("{file} was not reported; problems: {problems:?}"));
     for f in fragments {
-        assert!(
-            p.message.contains(f),
-            "{file}: {:?} lacks {f:?}",
-            p.message
-        );
+        assert!(p.message.contains(f), "{file}: {:?} lacks {f:?}", p.message);
     }
-    assert!(!p.message.contains('\n'), "{file}: one line: {:?}", p.message);
+    assert!(
+        !p.message.contains('\n'),
+        "{file}: one line: {:?}",
+        p.message
+    );
     let stem = Path::new(file).file_stem().unwrap().to_string_lossy();
     assert!(
         !h.plugins().iter().any(|i| i.path.ends_with(file)),
@@ -97,7 +97,10 @@ fn a_valid_plugin_is_a_namespace_with_help_completion_and_formulas() {
     assert_eq!(eval_str(&h, "plugins()[1].name"), "cellar");
     assert_eq!(eval_str(&h, "plugins()[1].version"), "0.1");
     assert_eq!(eval_str(&h, "plugins()[1].description"), "test plugin");
-    assert_eq!(eval_str(&h, "plugins()[1].path"), path.display().to_string());
+    assert_eq!(
+        eval_str(&h, "plugins()[1].path"),
+        path.display().to_string()
+    );
     // Help: signature, argument units, origin.
     let help = h.help_text("cellar.f");
     assert!(help.starts_with("cellar.f(x)"), "{help}");
@@ -231,7 +234,11 @@ fn each_invalid_plugin_is_reported_and_skipped() {
     .unwrap();
 
     assert_eq!(names(&h.plugins()), vec!["good", "pkg"]);
-    assert_skipped(&h, "dash.lua", &["\"my-site\"", "not a Lua identifier", "\"my_site\""]);
+    assert_skipped(
+        &h,
+        "dash.lua",
+        &["\"my-site\"", "not a Lua identifier", "\"my_site\""],
+    );
     assert_skipped(&h, "keyword.lua", &["\"end\"", "not a Lua identifier"]);
     assert_skipped(&h, "builtin.lua", &["\"sheet\"", "built-in"]);
     assert_skipped(&h, "library.lua", &["\"string\"", "built-in"]);
@@ -248,9 +255,17 @@ fn each_invalid_plugin_is_reported_and_skipped() {
     assert_skipped(&h, "nodoc.lua", &["functions.f has no field 'doc'"]);
     assert_skipped(&h, "nofn.lua", &["functions.f has no field 'fn'"]);
     assert_skipped(&h, "noargs.lua", &["functions.f has no field 'args'"]);
-    assert_skipped(&h, "badarg.lua", &["functions.f.args[1] has no field 'name'"]);
+    assert_skipped(
+        &h,
+        "badarg.lua",
+        &["functions.f.args[1] has no field 'name'"],
+    );
     assert_skipped(&h, "typo.lua", &["unknown field 'descripton'"]);
-    assert_skipped(&h, "notable.lua", &["must return the plugin table", "number 42"]);
+    assert_skipped(
+        &h,
+        "notable.lua",
+        &["must return the plugin table", "number 42"],
+    );
     assert_skipped(&h, "syntax.lua", &["syntax.lua:1:"]);
     assert_skipped(&h, "runtime.lua", &["runtime.lua:2:", "attempt to index"]);
     assert_skipped(&h, "loop.lua", &["time limit"]);
@@ -273,23 +288,42 @@ fn a_plugin_cannot_tamper_with_another_or_with_shared_tables() {
     write(
         d,
         "aaa_victim.lua",
-        &plugin("victim", "string.upper('ok') .. ':' .. tostring(math.pi > 3)"),
+        &plugin(
+            "victim",
+            "string.upper('ok') .. ':' .. tostring(math.pi > 3)",
+        ),
     );
     let attacks = [
         ("b1_assign.lua", "victim.f = function() return 'pwned' end"),
-        ("b2_rawset.lua", "rawset(victim, 'f', function() return 'pwned' end)"),
-        ("b3_string.lua", "string.upper = function() return 'pwned' end"),
-        ("b4_strmeta.lua", "getmetatable('').__index = { upper = function() return 'pwned' end }"),
+        (
+            "b2_rawset.lua",
+            "rawset(victim, 'f', function() return 'pwned' end)",
+        ),
+        (
+            "b3_string.lua",
+            "string.upper = function() return 'pwned' end",
+        ),
+        (
+            "b4_strmeta.lua",
+            "getmetatable('').__index = { upper = function() return 'pwned' end }",
+        ),
         ("b5_G.lua", "_G.string.upper = nil"),
         ("b6_load.lua", "load('string.upper = nil')()"),
         ("b7_gload.lua", "_G.load('math.pi = 0')()"),
-        ("b8_setmt.lua", "setmetatable(victim, { __index = function() return print end })"),
+        (
+            "b8_setmt.lua",
+            "setmetatable(victim, { __index = function() return print end })",
+        ),
         ("b9_insert.lua", "table.insert(math, 1)"),
         ("c1_mixture.lua", "mixture.ethanol_water = nil"),
         ("c2_rawset_lib.lua", "rawset(math, 'pi', 0)"),
     ];
     for (file, attack) in attacks {
-        write(d, file, &format!("{attack}\n{}", plugin(&file.replace(".lua", ""), "1")));
+        write(
+            d,
+            file,
+            &format!("{attack}\n{}", plugin(&file.replace(".lua", ""), "1")),
+        );
     }
     // A plugin may keep globals of its own: they stay private.
     write(
@@ -314,7 +348,11 @@ fn a_plugin_cannot_tamper_with_another_or_with_shared_tables() {
         };
         assert_skipped(&h, file, &[&place]);
     }
-    assert!(h.plugin_problems().len() == attacks.len(), "{:?}", h.plugin_problems());
+    assert!(
+        h.plugin_problems().len() == attacks.len(),
+        "{:?}",
+        h.plugin_problems()
+    );
     assert_eq!(eval_str(&h, "victim.f()"), "OK:true");
     assert_eq!(eval_str(&h, "string.upper('x')"), "X");
     assert_eq!(eval_str(&h, "tostring(math.pi > 3)"), "true");
@@ -332,7 +370,11 @@ fn plugin_directories_are_searched_in_order() {
     let work = tempfile::tempdir().unwrap();
     let config = tempfile::tempdir().unwrap();
     let extra = tempfile::tempdir().unwrap();
-    write(&work.path().join("plugins"), "site.lua", &plugin("site", "'local'"));
+    write(
+        &work.path().join("plugins"),
+        "site.lua",
+        &plugin("site", "'local'"),
+    );
     write(
         &config.path().join("meniscus/plugins"),
         "site.lua",
@@ -361,8 +403,20 @@ fn plugin_directories_are_searched_in_order() {
     // The later duplicates are reported on stderr with path and reason.
     assert_eq!(err.lines().count(), 2, "{err}");
     assert!(err.contains("meniscus: plugin "), "{err}");
-    assert!(err.contains(&config.path().join("meniscus/plugins/site.lua").display().to_string()), "{err}");
-    assert!(err.contains(&extra.path().join("user.lua").display().to_string()), "{err}");
+    assert!(
+        err.contains(
+            &config
+                .path()
+                .join("meniscus/plugins/site.lua")
+                .display()
+                .to_string()
+        ),
+        "{err}"
+    );
+    assert!(
+        err.contains(&extra.path().join("user.lua").display().to_string()),
+        "{err}"
+    );
     assert!(err.contains("already used"), "{err}");
     assert!(o.status.success());
 }
@@ -370,7 +424,11 @@ fn plugin_directories_are_searched_in_order() {
 #[test]
 fn skipped_plugins_are_reported_on_stderr_and_the_command_goes_on() {
     let dir = tempfile::tempdir().unwrap();
-    write(dir.path(), "bad.lua", &plugin("bad", "1").replace("api = 1", "api = 7"));
+    write(
+        dir.path(),
+        "bad.lua",
+        &plugin("bad", "1").replace("api = 1", "api = 7"),
+    );
     write(dir.path(), "ok.lua", &plugin("ok", "'yes'"));
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_meniscus"))
         .current_dir(dir.path())
@@ -387,8 +445,14 @@ fn skipped_plugins_are_reported_on_stderr_and_the_command_goes_on() {
     assert!(o.status.success());
     let line = err.lines().next().unwrap_or_default();
     assert!(line.starts_with("meniscus: plugin "), "{err}");
-    assert!(line.contains(&dir.path().join("bad.lua").display().to_string()), "{err}");
-    assert!(line.contains("api 7") && line.contains("provides api 1"), "{err}");
+    assert!(
+        line.contains(&dir.path().join("bad.lua").display().to_string()),
+        "{err}"
+    );
+    assert!(
+        line.contains("api 7") && line.contains("provides api 1"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -415,7 +479,10 @@ fn the_repl_lists_loaded_and_skipped_plugins() {
     let out = String::from_utf8_lossy(&o.stdout);
     assert!(out.contains("loaded plugins:"), "{out}");
     assert!(out.contains("ok  0.1  test plugin"), "{out}");
-    assert!(out.contains(&dir.path().join("ok.lua").display().to_string()), "{out}");
+    assert!(
+        out.contains(&dir.path().join("ok.lua").display().to_string()),
+        "{out}"
+    );
     assert!(out.contains("broken.lua skipped"), "{out}");
     assert!(out.contains(&dir.path().display().to_string()), "{out}");
 }
@@ -438,7 +505,10 @@ fn the_example_plugin_loads_and_answers_from_its_tables() {
     };
     // On a strapping-table row, and halfway between two rows.
     assert_eq!(num("brackenhollow.dip_volume('T02', 300)"), 690.0);
-    assert_eq!(num("brackenhollow.dip_volume('T02', 450)"), (690.0 + 1560.0) / 2.0);
+    assert_eq!(
+        num("brackenhollow.dip_volume('T02', 450)"),
+        (690.0 + 1560.0) / 2.0
+    );
     let dip = num("brackenhollow.dip_for_volume('T02', 1000)");
     assert!((num(&format!("brackenhollow.dip_volume('T02', {dip})")) - 1000.0).abs() < 1e-9);
     // Pure alcohol at 20 °C: the kernel's volume correction times strength.
@@ -449,8 +519,14 @@ fn the_example_plugin_loads_and_answers_from_its_tables() {
     let w = m.mass_fraction(Composition::abv(60.0)).unwrap();
     let want = m.volume_at(v, w, 13.0, 20.0).unwrap() * 0.6;
     assert!((lpa - want).abs() < 1e-9 * want, "{lpa} vs {want}");
-    let e = h.eval("brackenhollow.dip_volume('T02', 5000)", "=t").unwrap_err();
-    assert!(e.message.contains("outside the strapping table"), "{}", e.message);
+    let e = h
+        .eval("brackenhollow.dip_volume('T02', 5000)", "=t")
+        .unwrap_err();
+    assert!(
+        e.message.contains("outside the strapping table"),
+        "{}",
+        e.message
+    );
     let e = h.eval("brackenhollow.capacity('T99')", "=t").unwrap_err();
     assert!(e.message.contains("unknown tank \"T99\""), "{}", e.message);
 }

@@ -98,14 +98,20 @@ fn expression_formulas_match_the_kernel_and_follow_edits() {
     );
     let m = model();
     for (row, abv, t) in [(1, 40.0, 20.0), (2, 60.0, 15.0), (3, 96.0, 10.0)] {
-        let want = m.density_of(meniscus::kernel::Composition::abv(abv), t).unwrap();
+        let want = m
+            .density_of(meniscus::kernel::Composition::abv(abv), t)
+            .unwrap();
         assert_eq!(num(&h, &format!("s:get({row}, 'rho')")), want);
     }
     eval(&h, "s:set(2, 't', 25)");
-    let want = m.density_of(meniscus::kernel::Composition::abv(60.0), 25.0).unwrap();
+    let want = m
+        .density_of(meniscus::kernel::Composition::abv(60.0), 25.0)
+        .unwrap();
     assert_eq!(num(&h, "s:get(2, 'rho')"), want);
     // The other rows did not change.
-    let want = m.density_of(meniscus::kernel::Composition::abv(40.0), 20.0).unwrap();
+    let want = m
+        .density_of(meniscus::kernel::Composition::abv(40.0), 20.0)
+        .unwrap();
     assert_eq!(num(&h, "s:get(1, 'rho')"), want);
     assert_eq!(text(&h, "s:formulas().rho"), "m:density{abv = abv, t = t}");
     assert_eq!(num(&h, "#s"), 3.0);
@@ -142,7 +148,10 @@ fn recalculation_follows_dependency_order_and_only_reaches_dependents() {
     eval(&h, "s:formula('a', 'x * 100')");
     assert_eq!(num(&h, "s:get(2, 'c')"), 2100.0);
     // A function formula's default dependencies are the data columns.
-    eval(&h, "s:formula('e', function(r) return (r.x or 0) + (r.y or 0) + (r.a or 0) end)");
+    eval(
+        &h,
+        "s:formula('e', function(r) return (r.x or 0) + (r.y or 0) + (r.a or 0) end)",
+    );
     assert_eq!(num(&h, "s:get(1, 'e')"), 11.0);
     // Every formula cell equals a full recalculation.
     let before = kernel_sheet(&h, "s");
@@ -185,7 +194,11 @@ fn formula_errors_name_column_row_and_place() {
         "s:formula('rho', 'm:density{abv = abv * 2.2, t = 20}')",
         &["column \"rho\", row 2", "formula \"rho\":1:", "outside"],
     );
-    assert_eq!(num(&h, "s:ncols()"), 1.0, "the failed formula column is gone");
+    assert_eq!(
+        num(&h, "s:ncols()"),
+        1.0,
+        "the failed formula column is gone"
+    );
     eval(&h, "s:formula('rho', 'm:density{abv = abv, t = 20}')");
     fails_with(&h, "s:set(1, 'abv', 120)", &["s:set", "row 1", "outside"]);
     assert_eq!(num(&h, "s:get(1, 'abv')"), 40.0, "the cell kept its value");
@@ -238,8 +251,16 @@ fn formulas_cannot_assign_globals_or_reach_the_real_environment() {
         "s:formula('y', '(function() string.upper = nil end)()')",
         &["read-only"],
     );
-    fails_with(&h, "s:formula('y', 'load(\"count = 5\")()')", &["read-only"]);
-    fails_with(&h, "s:formula('y', 'rawset(_G, \"count\", 5)')", &["read-only"]);
+    fails_with(
+        &h,
+        "s:formula('y', 'load(\"count = 5\")()')",
+        &["read-only"],
+    );
+    fails_with(
+        &h,
+        "s:formula('y', 'rawset(_G, \"count\", 5)')",
+        &["read-only"],
+    );
     assert_eq!(num(&h, "count"), 0.0);
     assert_eq!(text(&h, "string.upper('ok')"), "OK");
     // Globals are read live: recalculate picks up a changed global.
@@ -266,14 +287,28 @@ fn columns_rows_filter_sort_and_display() {
     // The filtered sheet keeps its formulas.
     eval(&h, "f:set(1, 'abv', 1)");
     assert_eq!(num(&h, "f:get(1, 'double')"), 2.0);
-    assert_eq!(num(&h, "s:get(1, 'abv')"), 60.0, "the original is untouched");
+    assert_eq!(
+        num(&h, "s:get(1, 'abv')"),
+        60.0,
+        "the original is untouched"
+    );
     eval(&h, "s:sort('abv', 'desc')");
     assert_eq!(text(&h, "tostring(s:column('abv'))"), "vec{60, 50, 40}");
     eval(&h, "s:sort('lot')");
     assert_eq!(text(&h, "s:get(1, 'lot')"), "A");
-    assert!(h.eval("s:get(3, 'lot')", "=t").unwrap().iter().next().unwrap().is_nil());
+    assert!(h
+        .eval("s:get(3, 'lot')", "=t")
+        .unwrap()
+        .iter()
+        .next()
+        .unwrap()
+        .is_nil());
     fails_with(&h, "s:sort('abv', 'down')", &["\"asc\" or \"desc\""]);
-    fails_with(&h, "s:filter(function(r) error('no') end)", &["row 1", "no"]);
+    fails_with(
+        &h,
+        "s:filter(function(r) error('no') end)",
+        &["row 1", "no"],
+    );
     let shown = text(&h, "tostring(s)");
     let kernel = kernel_sheet(&h, "s").to_string();
     assert!(shown.starts_with("sheet: 3 rows × 3 columns\n"), "{shown}");
@@ -295,7 +330,13 @@ fn set_column_accepts_vectors_and_arrays_and_adds_new_columns() {
          s:set_column('lot', {'a', 'b', '', 'd', 'e'})",
     );
     assert_eq!(num(&h, "s:nrows()"), 5.0);
-    assert!(h.eval("s:get(3, 'lot')", "=t").unwrap().iter().next().unwrap().is_nil());
+    assert!(h
+        .eval("s:get(3, 'lot')", "=t")
+        .unwrap()
+        .iter()
+        .next()
+        .unwrap()
+        .is_nil());
     eval(&h, "s:set_column('abv', {10, 20, 30, 40, 50})");
     let want = model()
         .density_of(meniscus::kernel::Composition::abv(30.0), 20.0)
@@ -325,10 +366,7 @@ fn grids_long_and_wide_with_gaps() {
     let long = kernel_sheet(&h, "g");
     assert_eq!(long.column_names(), vec!["abv", "t", "true_abv"]);
     assert_eq!(long.nrows(), 6);
-    let want = m
-        .hydrometer(HydrometerScale::abv(), 50.0, 0.0)
-        .unwrap()
-        .abv;
+    let want = m.hydrometer(HydrometerScale::abv(), 50.0, 0.0).unwrap().abv;
     assert_eq!(long.get(2, "true_abv").unwrap(), CellRef::Number(want));
     // 100 % vol read at 0 °C: no mixture gives it, so no value.
     assert!(m.hydrometer(HydrometerScale::abv(), 100.0, 0.0).is_err());
@@ -356,7 +394,11 @@ fn grids_long_and_wide_with_gaps() {
         "sheet.grid{rows = {name = 'a', values = {1}}, fn = print}",
         &["cols is required"],
     );
-    fails_with(&h, "sheet.grid{rows = {}, cols = {}, fn = print, colour = 1}", &["unknown key 'colour'"]);
+    fails_with(
+        &h,
+        "sheet.grid{rows = {}, cols = {}, fn = print, colour = 1}",
+        &["unknown key 'colour'"],
+    );
 }
 
 #[test]
@@ -387,18 +429,42 @@ fn vectorized_grids_give_the_same_table_with_one_call_per_row() {
     assert_eq!(num(&h, "calls"), 3.0);
     let (p, v) = (kernel_sheet(&h, "p"), kernel_sheet(&h, "v"));
     assert_eq!(p, v);
-    assert_eq!(v.get(2, "t=0").unwrap(), CellRef::Empty, "100 % vol read at 0 °C");
+    assert_eq!(
+        v.get(2, "t=0").unwrap(),
+        CellRef::Empty,
+        "100 % vol read at 0 °C"
+    );
     assert_eq!(num(&h, "l:get(9, 'x')"), 100.0);
     let grid = |f: &str| {
         format!(
             "sheet.grid{{rows = {{name = 'a', values = {{1, 2}}}}, cols = {{name = 'b', values = {{1, 2, 3}}}}, vectorized = true, fn = {f}}}"
         )
     };
-    fails_with(&h, &grid("function(a, bs) return vec{1, 2} end"), &["vector of 2 values for 3"]);
-    fails_with(&h, &grid("function(a, bs) return {1, 2, 3, 4} end"), &["key number 4"]);
-    fails_with(&h, &grid("function(a, bs) return {1, 'x', 3} end"), &["[2]", "must return a number"]);
-    fails_with(&h, &grid("function(a, bs) return 5 end"), &["vector or an array"]);
-    fails_with(&h, &grid("function(a, bs) error('boom') end"), &["a = 1, b = 1", "whole row", "boom"]);
+    fails_with(
+        &h,
+        &grid("function(a, bs) return vec{1, 2} end"),
+        &["vector of 2 values for 3"],
+    );
+    fails_with(
+        &h,
+        &grid("function(a, bs) return {1, 2, 3, 4} end"),
+        &["key number 4"],
+    );
+    fails_with(
+        &h,
+        &grid("function(a, bs) return {1, 'x', 3} end"),
+        &["[2]", "must return a number"],
+    );
+    fails_with(
+        &h,
+        &grid("function(a, bs) return 5 end"),
+        &["vector or an array"],
+    );
+    fails_with(
+        &h,
+        &grid("function(a, bs) error('boom') end"),
+        &["a = 1, b = 1", "whole row", "boom"],
+    );
 }
 
 // ------------------------------------------------------------ memory
@@ -418,8 +484,16 @@ fn sheet_size_is_capped_by_the_memory_limit() {
             "=t",
         )
         .unwrap_err();
-    assert!(e.message.contains("not enough memory for a sheet"), "{}", e.message);
-    assert!(e.message.contains("4000000 rows × 3 columns"), "{}", e.message);
+    assert!(
+        e.message.contains("not enough memory for a sheet"),
+        "{}",
+        e.message
+    );
+    assert!(
+        e.message.contains("4000000 rows × 3 columns"),
+        "{}",
+        e.message
+    );
     assert!(e.message.contains("--memory-limit"), "{}", e.message);
     // Rows added one by one stop at the limit too, with the same message.
     let e = h
@@ -431,7 +505,11 @@ fn sheet_size_is_capped_by_the_memory_limit() {
             "=t",
         )
         .unwrap_err();
-    assert!(e.message.contains("not enough memory for a sheet"), "{}", e.message);
+    assert!(
+        e.message.contains("not enough memory for a sheet"),
+        "{}",
+        e.message
+    );
     // The state is still usable and the memory counted for the sheet is released.
     let before = h.used_memory();
     h.eval("s = nil", "=t").unwrap();
@@ -445,7 +523,11 @@ fn sheet_size_is_capped_by_the_memory_limit() {
             "=t",
         )
         .unwrap_err();
-    assert!(e.message.contains("cells a sheet may hold"), "{}", e.message);
+    assert!(
+        e.message.contains("cells a sheet may hold"),
+        "{}",
+        e.message
+    );
 }
 
 // ------------------------------------------------------------ CSV files
@@ -455,16 +537,36 @@ fn every_malformed_csv_reaches_lua_with_line_and_column() {
     let dir = tempfile::tempdir().unwrap();
     let h = host_in(dir.path());
     let cases: &[(&str, &[u8], &[&str])] = &[
-        ("ragged.csv", b"a,b\n1,2\n3\n", &["line 3, column 2", "fields"]),
+        (
+            "ragged.csv",
+            b"a,b\n1,2\n3\n",
+            &["line 3, column 2", "fields"],
+        ),
         (
             "quote.csv",
             b"a,b\n1,\"x\n2,3\n",
             &["line 2, column 2", "never closed"],
         ),
-        ("utf8.csv", b"a,b\n1,x\xff\n", &["line 2, column 2", "UTF-8"]),
-        ("nan.csv", b"a,b\n1,2\nNaN,3\n", &["line 3, column 1", "NaN"]),
-        ("inf.csv", b"a,b\n1,2\n-inf,3\n", &["line 3, column 1", "inf"]),
-        ("empty.csv", b"a,b\n1,2\n,3\n", &["line 3, column 1", "empty"]),
+        (
+            "utf8.csv",
+            b"a,b\n1,x\xff\n",
+            &["line 2, column 2", "UTF-8"],
+        ),
+        (
+            "nan.csv",
+            b"a,b\n1,2\nNaN,3\n",
+            &["line 3, column 1", "NaN"],
+        ),
+        (
+            "inf.csv",
+            b"a,b\n1,2\n-inf,3\n",
+            &["line 3, column 1", "inf"],
+        ),
+        (
+            "empty.csv",
+            b"a,b\n1,2\n,3\n",
+            &["line 3, column 1", "empty"],
+        ),
         ("dup.csv", b"a,a\n1,2\n", &["line 1, column 2", "twice"]),
         ("blank.csv", b"a, \n1,2\n", &["line 1, column 2", "blank"]),
         ("nothing.csv", b"", &["line 1", "header"]),
@@ -475,7 +577,11 @@ fn every_malformed_csv_reaches_lua_with_line_and_column() {
         std::fs::write(&path, bytes).unwrap();
         let src = format!("sheet.read_csv({:?})", path.display().to_string());
         let e = err(&h, &src);
-        assert!(e.message.contains("sheet.read_csv"), "{name}: {}", e.message);
+        assert!(
+            e.message.contains("sheet.read_csv"),
+            "{name}: {}",
+            e.message
+        );
         assert!(
             e.message.contains(&path.display().to_string()),
             "{name}: no file in {:?}",
@@ -496,8 +602,18 @@ fn every_malformed_csv_reaches_lua_with_line_and_column() {
             path.display().to_string()
         ),
     );
-    assert!(h.eval("s:get(1, 'b')", "=t").unwrap().iter().next().unwrap().is_nil());
-    fails_with(&h, "sheet.read_csv('x.csv', {delimiter = ';;'})", &["one ASCII character"]);
+    assert!(h
+        .eval("s:get(1, 'b')", "=t")
+        .unwrap()
+        .iter()
+        .next()
+        .unwrap()
+        .is_nil());
+    fails_with(
+        &h,
+        "sheet.read_csv('x.csv', {delimiter = ';;'})",
+        &["one ASCII character"],
+    );
 }
 
 #[test]
@@ -510,7 +626,11 @@ fn files_stay_inside_allowed_paths_and_writes_are_atomic() {
     let outside = other.path().join("x.csv").display().to_string();
     let outside_file = other.path().join("y.csv").display().to_string();
     fails_with(&h, &format!("s:write_csv({outside:?})"), &["outside"]);
-    fails_with(&h, &format!("sheet.read_csv({outside_file:?})"), &["outside"]);
+    fails_with(
+        &h,
+        &format!("sheet.read_csv({outside_file:?})"),
+        &["outside"],
+    );
     assert!(!other.path().join("x.csv").exists());
     // A write into a directory that does not exist fails and leaves nothing.
     let missing = dir.path().join("no/such/dir/x.csv").display().to_string();
@@ -531,7 +651,10 @@ fn files_stay_inside_allowed_paths_and_writes_are_atomic() {
             json.display().to_string()
         ),
     );
-    assert_eq!(std::fs::read_to_string(&json).unwrap().trim(), "{\"a\":[1.0,2.0]}");
+    assert_eq!(
+        std::fs::read_to_string(&json).unwrap().trim(),
+        "{\"a\":[1.0,2.0]}"
+    );
     let leftovers: Vec<_> = std::fs::read_dir(dir.path())
         .unwrap()
         .filter_map(|e| e.ok())
@@ -543,10 +666,7 @@ fn files_stay_inside_allowed_paths_and_writes_are_atomic() {
 /// Text that never reads back as a number (CSV has no types): a leading
 /// letter that no float syntax starts with.
 fn texts() -> impl Strategy<Value = String> {
-    prop_oneof![
-        Just(String::new()),
-        "[xyz][a-z0-9 ,;\"\\n\\r'é€-]{0,12}",
-    ]
+    prop_oneof![Just(String::new()), "[xyz][a-z0-9 ,;\"\\n\\r'é€-]{0,12}",]
 }
 
 fn columns() -> impl Strategy<Value = (usize, Vec<bool>)> {
@@ -618,10 +738,27 @@ proptest! {
 fn help_and_completion_cover_the_sheet_api() {
     let h = host();
     for name in [
-        "sheet", "sheet.new", "sheet.read_csv", "sheet.grid", "sheet:add", "sheet:set",
-        "sheet:get", "sheet:set_column", "sheet:formula", "sheet:formulas", "sheet:recalculate",
-        "sheet:column", "sheet:row", "sheet:nrows", "sheet:ncols", "sheet:names",
-        "sheet:filter", "sheet:sort", "sheet:write_csv", "sheet:write_json", "files.mkdir",
+        "sheet",
+        "sheet.new",
+        "sheet.read_csv",
+        "sheet.grid",
+        "sheet:add",
+        "sheet:set",
+        "sheet:get",
+        "sheet:set_column",
+        "sheet:formula",
+        "sheet:formulas",
+        "sheet:recalculate",
+        "sheet:column",
+        "sheet:row",
+        "sheet:nrows",
+        "sheet:ncols",
+        "sheet:names",
+        "sheet:filter",
+        "sheet:sort",
+        "sheet:write_csv",
+        "sheet:write_json",
+        "files.mkdir",
     ] {
         let t = h.help_text(name);
         assert!(!t.starts_with("no help"), "{name}: {t}");
@@ -745,7 +882,10 @@ mod scripts {
             }
         }
         assert!(gaps > 0, "cold readings near 100 % vol have no value");
-        assert!(out.contains(&format!("{gaps} points have no value")), "{out}");
+        assert!(
+            out.contains(&format!("{gaps} points have no value")),
+            "{out}"
+        );
         // Long layout: the same values, one row per pair.
         let (dir, _) = run("hydrometer_correction.lua", &["25", "20", "long"]);
         let l = read(dir.path(), "hydrometer_correction.csv");
@@ -753,7 +893,10 @@ mod scripts {
         assert_eq!(l.nrows(), 5 * 3);
         let (reading, t) = (number(&l, 7, "reading"), number(&l, 7, "t"));
         assert_eq!((reading, t), (50.0, 20.0));
-        let want = m.hydrometer(HydrometerScale::abv(), 50.0, 20.0).unwrap().abv;
+        let want = m
+            .hydrometer(HydrometerScale::abv(), 50.0, 20.0)
+            .unwrap()
+            .abv;
         assert_eq!(number(&l, 7, "abv"), want);
     }
 
@@ -791,7 +934,10 @@ mod scripts {
         }
         let e = number(&s, best.1, "ethanol_l");
         assert!(
-            out.contains(&format!("largest loss: {:.2} L per 100 L, mixing {e} L ethanol", best.0)),
+            out.contains(&format!(
+                "largest loss: {:.2} L per 100 L, mixing {e} L ethanol",
+                best.0
+            )),
             "{out}"
         );
         // Another temperature is honoured.

@@ -252,10 +252,7 @@ impl Host {
     /// The plugin directories searched, in order: `./plugins` and the
     /// user's plugin directory (unless turned off), then `--plugins` ones.
     pub fn plugin_dirs(&self) -> Vec<PathBuf> {
-        plugins::search_dirs(
-            self.options.standard_plugin_dirs,
-            &self.options.plugin_dirs,
-        )
+        plugins::search_dirs(self.options.standard_plugin_dirs, &self.options.plugin_dirs)
     }
 
     /// The plugins loaded, in load order.

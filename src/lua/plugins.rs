@@ -300,9 +300,9 @@ fn check_function(plugin: &str, fname: &str, v: Value) -> mlua::Result<PluginFun
         Value::Table(a) => a,
         Value::Nil => {
             return Err(invalid(format!(
-                "{what} has no field 'args'; list the arguments, e.g. args = {{ {{name = \"dip_mm\", \
+            "{what} has no field 'args'; list the arguments, e.g. args = {{ {{name = \"dip_mm\", \
                  unit = \"mm\", doc = \"dip depth\"}} }} (args = {{}} for none)"
-            )))
+        )))
         }
         other => {
             return Err(invalid(format!(
@@ -372,16 +372,16 @@ pub fn load_plugin(
     reserved: &HashSet<String>,
     loaded: &[PluginInfo],
 ) -> mlua::Result<PluginInfo> {
-    let meta = std::fs::metadata(path)
-        .map_err(|e| invalid(format!("cannot read the file: {e}")))?;
+    let meta =
+        std::fs::metadata(path).map_err(|e| invalid(format!("cannot read the file: {e}")))?;
     if meta.len() > MAX_PLUGIN_BYTES {
         return Err(invalid(format!(
             "the file is {} bytes, more than the {MAX_PLUGIN_BYTES} a plugin may be",
             meta.len()
         )));
     }
-    let source = std::fs::read_to_string(path)
-        .map_err(|e| invalid(format!("cannot read the file: {e}")))?;
+    let source =
+        std::fs::read_to_string(path).map_err(|e| invalid(format!("cannot read the file: {e}")))?;
     let env = super::readonly::private_env(lua, false)?;
     let chunk = lua
         .load(source)
@@ -442,7 +442,9 @@ pub fn load_plugin(
         )));
     }
     if entries.is_empty() {
-        return Err(invalid("'functions' is empty; a plugin provides at least one function"));
+        return Err(invalid(
+            "'functions' is empty; a plugin provides at least one function",
+        ));
     }
     entries.sort_by(|a, b| a.0.cmp(&b.0));
     let mut functions = Vec::with_capacity(entries.len());
@@ -458,7 +460,10 @@ pub fn load_plugin(
     let ns = super::readonly::view(lua, &inner)?;
     lua.globals().raw_set(name.as_str(), ns.clone())?;
     tag(lua, Value::Table(ns), &name)?;
-    let origin = format!("Plugin {name} {version} (api {api}), from {}", path.display());
+    let origin = format!(
+        "Plugin {name} {version} (api {api}), from {}",
+        path.display()
+    );
     let names: Vec<String> = functions.iter().map(|f| f.name.clone()).collect();
     add_help(
         lua,
@@ -475,7 +480,12 @@ pub fn load_plugin(
     )?;
     for f in &functions {
         let help_name = format!("{name}.{}", f.name);
-        add_help(lua, &help_name, &f.signature, &format!("{}\n{origin}", f.doc))?;
+        add_help(
+            lua,
+            &help_name,
+            &f.signature,
+            &format!("{}\n{origin}", f.doc),
+        )?;
         tag(lua, Value::Function(f.func.clone()), &help_name)?;
     }
     Ok(PluginInfo {

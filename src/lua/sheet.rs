@@ -382,11 +382,7 @@ struct LuaEval<'a> {
 }
 
 impl<'a> LuaEval<'a> {
-    fn new(
-        lua: &'a Lua,
-        formulas: &'a HashMap<u64, Rc<FormulaDef>>,
-        label: &'static str,
-    ) -> Self {
+    fn new(lua: &'a Lua, formulas: &'a HashMap<u64, Rc<FormulaDef>>, label: &'static str) -> Self {
         LuaEval {
             lua,
             formulas,
@@ -551,11 +547,9 @@ pub fn referenced_names(expr: &str) -> Vec<String> {
         if c.is_ascii_digit() || (c == b'.' && b.get(i + 1).is_some_and(u8::is_ascii_digit)) {
             while i < b.len() {
                 let d = b[i];
-                if is_word(d) || d == b'.' {
-                    i += 1;
-                } else if (d == b'+' || d == b'-')
-                    && matches!(b[i - 1], b'e' | b'E' | b'p' | b'P')
-                {
+                let exponent_sign =
+                    (d == b'+' || d == b'-') && matches!(b[i - 1], b'e' | b'E' | b'p' | b'P');
+                if is_word(d) || d == b'.' || exponent_sign {
                     i += 1;
                 } else {
                     break;
@@ -611,7 +605,7 @@ fn long_bracket_level(b: &[u8], i: usize) -> Option<usize> {
 /// after it (or the end of the input).
 fn skip_long_bracket(b: &[u8], i: usize, level: usize) -> usize {
     let mut close = vec![b']'];
-    close.extend(std::iter::repeat_n(b'=', level));
+    close.extend(std::iter::repeat(b'=').take(level));
     close.push(b']');
     let body = i + level + 2;
     match b[body.min(b.len())..]
@@ -678,7 +672,10 @@ fn compile_expression(
         (String::new(), "function() end".to_string())
     } else {
         let list = used_globals.join(", ");
-        (format!("local {list}; "), format!("function(...) {list} = ... end"))
+        (
+            format!("local {list}; "),
+            format!("function(...) {list} = ... end"),
+        )
     };
     let maker = lua
         .load(format!(
@@ -700,7 +697,7 @@ fn compile_expression(
 
 // ------------------------------------------------------------ the userdata
 
-fn borrow_mut<'a>(ud: &'a AnyUserData, func: &str) -> mlua::Result<UserDataRefMut<SheetUd>> {
+fn borrow_mut(ud: &AnyUserData, func: &str) -> mlua::Result<UserDataRefMut<SheetUd>> {
     ud.borrow_mut::<SheetUd>().map_err(|e| match e {
         mlua::Error::UserDataBorrowMutError | mlua::Error::UserDataBorrowError => runtime(format!(
             "{func}: this sheet is busy: a formula, filter or table function may not use the \
@@ -710,7 +707,7 @@ fn borrow_mut<'a>(ud: &'a AnyUserData, func: &str) -> mlua::Result<UserDataRefMu
     })
 }
 
-fn borrow<'a>(ud: &'a AnyUserData, func: &str) -> mlua::Result<mlua::UserDataRef<SheetUd>> {
+fn borrow(ud: &AnyUserData, func: &str) -> mlua::Result<mlua::UserDataRef<SheetUd>> {
     ud.borrow::<SheetUd>().map_err(|e| match e {
         mlua::Error::UserDataBorrowMutError | mlua::Error::UserDataBorrowError => runtime(format!(
             "{func}: this sheet is busy: a formula, filter or table function may not use the \
@@ -741,21 +738,15 @@ fn add_row(lua: &Lua, this: &mut SheetUd, arg: &LuaValue) -> mlua::Result<()> {
         )));
     };
     let ncols = this.sheet.ncols();
-    check_size(
-        lua,
-        func,
-        this.sheet.nrows() + 1,
-        ncols,
-        ncols * VALUE_CELL,
-    )?;
+    check_size(lua, func, this.sheet.nrows() + 1, ncols, ncols * VALUE_CELL)?;
     let mut named: Vec<(String, Value)> = Vec::new();
     let mut positional: Vec<(i64, Value)> = Vec::new();
     t.for_each::<LuaValue, LuaValue>(|k, v| {
         match k {
             LuaValue::String(s) => {
                 let name = s.to_str()?.to_string();
-                let cell = lua_to_cell(&v, &|| format!("{func}: column \"{name}\""))
-                    .map_err(runtime)?;
+                let cell =
+                    lua_to_cell(&v, &|| format!("{func}: column \"{name}\"")).map_err(runtime)?;
                 named.push((name, cell));
             }
             LuaValue::Integer(i) => {
@@ -782,7 +773,11 @@ fn add_row(lua: &Lua, this: &mut SheetUd, arg: &LuaValue) -> mlua::Result<()> {
         (_, true) => this.sheet.add_row_named(named, &mut ev),
         (true, false) => {
             positional.sort_by_key(|(i, _)| *i);
-            if positional.iter().enumerate().any(|(j, (i, _))| *i != j as i64 + 1) {
+            if positional
+                .iter()
+                .enumerate()
+                .any(|(j, (i, _))| *i != j as i64 + 1)
+            {
                 return Err(runtime(format!(
                     "{func}: a row in column order must be a list {{v1, v2, …}} without holes \
                      (write \"\" for an empty cell)"
@@ -841,9 +836,9 @@ fn define_formula(
         }
         other => {
             return Err(runtime(format!(
-                "{func}: the formula must be a Lua expression (a string) or a function(row), got {}",
-                describe_value(other)
-            )))
+            "{func}: the formula must be a Lua expression (a string) or a function(row), got {}",
+            describe_value(other)
+        )))
         }
     };
     let new_col = !this.sheet.has_column(name);
@@ -963,8 +958,8 @@ impl UserData for SheetUd {
                 let func = "s:set";
                 let r = row_arg(&row, func)?;
                 let col = string_arg(&col, func, "column")?;
-                let value = lua_to_cell(&v, &|| format!("{func}: column \"{col}\""))
-                    .map_err(runtime)?;
+                let value =
+                    lua_to_cell(&v, &|| format!("{func}: column \"{col}\"")).map_err(runtime)?;
                 let mut this = borrow_mut(&ud, func)?;
                 let this = &mut *this;
                 let mut ev = LuaEval::new(lua, &this.formulas, "recalculating");
@@ -1061,8 +1056,7 @@ impl UserData for SheetUd {
             let t = lua.create_table()?;
             for name in this.sheet.column_names() {
                 if let Ok(Some(info)) = this.sheet.formula(name) {
-                    let text = match this.formulas.get(&info.id.0).and_then(|d| d.source.clone())
-                    {
+                    let text = match this.formulas.get(&info.id.0).and_then(|d| d.source.clone()) {
                         Some(src) => src,
                         None => format!("function(row) of {}", info.deps.join(", ")),
                     };
@@ -1150,7 +1144,9 @@ impl UserData for SheetUd {
                     }
                 };
                 let this = borrow(&ud, func)?;
-                write_file(lua, &this.sheet, &path, func, |s, w| s.write_json(w, layout))
+                write_file(lua, &this.sheet, &path, func, |s, w| {
+                    s.write_json(w, layout)
+                })
             },
         );
         methods.add_meta_function(MetaMethod::Len, |_, ud: AnyUserData| {
@@ -1207,8 +1203,8 @@ fn read_csv(lua: &Lua, (path, opts): (LuaValue, Option<LuaValue>)) -> mlua::Resu
     let o = csv_options(opts.as_ref(), func)?;
     let full = resolve_path(lua, &p, false)
         .map_err(|e| runtime(format!("{func}: {}", describe(&e).message)))?;
-    let file =
-        std::fs::File::open(&full).map_err(|e| runtime(format!("{func}: cannot read '{p}': {e}")))?;
+    let file = std::fs::File::open(&full)
+        .map_err(|e| runtime(format!("{func}: cannot read '{p}': {e}")))?;
     let len = file.metadata().map(|m| m.len()).unwrap_or(0);
     // Cells take more memory than their text: keep the file well inside the limit.
     let max = lua
@@ -1241,13 +1237,23 @@ fn read_csv(lua: &Lua, (path, opts): (LuaValue, Option<LuaValue>)) -> mlua::Resu
 }
 
 /// One axis of `sheet.grid`: `{name = "abv", values = …}`.
-fn grid_axis(lua: &Lua, v: Option<&LuaValue>, func: &str, key: &str) -> mlua::Result<(String, Vec<f64>)> {
+fn grid_axis(
+    lua: &Lua,
+    v: Option<&LuaValue>,
+    func: &str,
+    key: &str,
+) -> mlua::Result<(String, Vec<f64>)> {
     let Some(v) = v else {
         return Err(runtime(format!(
             "{func}: {key} is required, like {key} = {{name = \"abv\", values = range(0, 100, 10)}}"
         )));
     };
-    let f = Fields::read(v, &format!("{func} {key}"), &["name", "values"], "{name = \"abv\", values = range(0, 100, 10)}")?;
+    let f = Fields::read(
+        v,
+        &format!("{func} {key}"),
+        &["name", "values"],
+        "{name = \"abv\", values = range(0, 100, 10)}",
+    )?;
     let name = match f.get("name") {
         Some(n) => string_arg(n, func, &format!("{key}.name"))?,
         None => return Err(runtime(format!("{func}: {key}.name is required"))),
@@ -1404,17 +1410,15 @@ fn grid_row(v: &LuaValue, n: usize) -> Result<Vec<Option<f64>>, String> {
                     return Ok(());
                 }
                 match k {
-                    LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => {
-                        match grid_number(&x) {
-                            Ok(v) => out[i as usize - 1] = v,
-                            Err(m) => bad = Some(format!("[{i}]: {m}")),
-                        }
-                    }
+                    LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => match grid_number(&x) {
+                        Ok(v) => out[i as usize - 1] = v,
+                        Err(m) => bad = Some(format!("[{i}]: {m}")),
+                    },
                     other => {
                         bad = Some(format!(
-                            "fn returned a table with the key {} for {n} column values (keys 1 to {n})",
-                            describe_value(&other)
-                        ))
+                        "fn returned a table with the key {} for {n} column values (keys 1 to {n})",
+                        describe_value(&other)
+                    ))
                     }
                 }
                 Ok(())
@@ -1661,7 +1665,10 @@ mod tests {
             vec!["math", "a", "b", "x", "y"]
         );
         assert_eq!(referenced_names("a..b"), vec!["a", "b"]);
-        assert_eq!(referenced_names("1e-5 * abv + 0x1F + t2"), vec!["abv", "t2"]);
+        assert_eq!(
+            referenced_names("1e-5 * abv + 0x1F + t2"),
+            vec!["abv", "t2"]
+        );
         assert_eq!(referenced_names("not x and nil or true"), vec!["x"]);
         assert_eq!(referenced_names("--[==[ a ]==] b"), vec!["b"]);
         assert_eq!(referenced_names("\"it\\\"s\" .. q"), vec!["q"]);
