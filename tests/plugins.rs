@@ -3,6 +3,7 @@
 //! and the session go on), isolation between plugins, the search order of
 //! the plugin directories, and the loaded plugins in help, completion,
 //! sheet formulas, `plugins()` and the REPL's `:plugins`.
+#![cfg(feature = "lua")]
 
 use std::path::{Path, PathBuf};
 use std::time::Duration;
@@ -366,6 +367,7 @@ fn a_plugin_cannot_tamper_with_another_or_with_shared_tables() {
 }
 
 #[test]
+#[cfg(feature = "cli")]
 fn plugin_directories_are_searched_in_order() {
     let work = tempfile::tempdir().unwrap();
     let config = tempfile::tempdir().unwrap();
@@ -422,6 +424,7 @@ fn plugin_directories_are_searched_in_order() {
 }
 
 #[test]
+#[cfg(feature = "cli")]
 fn skipped_plugins_are_reported_on_stderr_and_the_command_goes_on() {
     let dir = tempfile::tempdir().unwrap();
     write(
@@ -456,6 +459,7 @@ fn skipped_plugins_are_reported_on_stderr_and_the_command_goes_on() {
 }
 
 #[test]
+#[cfg(feature = "cli")]
 fn the_repl_lists_loaded_and_skipped_plugins() {
     let dir = tempfile::tempdir().unwrap();
     write(dir.path(), "ok.lua", &plugin("ok", "1"));

@@ -3,6 +3,7 @@
 //! trip, every malformed-CSV case as the Lua user meets it, the memory cap,
 //! file access, and the workflow scripts in scripts/tables/ checked against
 //! the kernel called directly.
+#![cfg(feature = "lua")]
 
 use std::path::Path;
 use std::time::Duration;
