@@ -109,7 +109,7 @@ pub fn user_plugin_dir() -> Option<PathBuf> {
 pub fn search_dirs(standard: bool, extra: &[PathBuf]) -> Vec<PathBuf> {
     let mut dirs = Vec::new();
     if standard {
-        dirs.push(PathBuf::from("plugins"));
+        dirs.push(PathBuf::from("./plugins"));
         if let Some(d) = user_plugin_dir() {
             dirs.push(d);
         }
