@@ -328,7 +328,9 @@ fn kernel_err(func: &str, e: KernelError) -> mlua::Error {
 struct Progress {
     label: &'static str,
     bar: Option<indicatif::ProgressBar>,
-    terminal: bool,
+    /// Whether stderr is a terminal, asked only once work is large enough
+    /// (a system call is too dear for every single-row change).
+    terminal: Option<bool>,
 }
 
 impl Progress {
@@ -336,12 +338,16 @@ impl Progress {
         Progress {
             label,
             bar: None,
-            terminal: std::io::stderr().is_terminal(),
+            terminal: None,
         }
     }
 
     fn update(&mut self, done: usize, total: usize) {
-        if !self.terminal || total < PROGRESS_MIN_CELLS {
+        if total < PROGRESS_MIN_CELLS
+            || !*self
+                .terminal
+                .get_or_insert_with(|| std::io::stderr().is_terminal())
+        {
             return;
         }
         let bar = self.bar.get_or_insert_with(|| {
