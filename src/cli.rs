@@ -137,6 +137,7 @@ impl GlobalOptions {
     pub fn host_options(&self) -> HostOptions {
         HostOptions {
             plugin_dirs: self.plugin_dirs.clone(),
+            standard_plugin_dirs: true,
             allow_paths: self.allow_paths.clone(),
             // memory_limit_mib() bounds the value, so this cannot overflow.
             memory_limit: usize::try_from(self.memory_limit * 1024 * 1024).unwrap_or(usize::MAX),

@@ -293,6 +293,99 @@ fn lua_fit_reproduces_the_kernel_fit_from_csv_rows_and_columns() {
     assert_eq!(text(&h, "b:fit_info().source"), "a Lua table of rows");
 }
 
+/// Lua source adding `rows` to the sheet `s`, one `s:add{…}` per row.
+fn sheet_adds(rows: &[(f64, f64, f64)]) -> String {
+    let mut src = String::new();
+    for (c, rho, t) in rows {
+        writeln!(src, "s:add{{abm = {c:?}, rho = {rho:?}, t = {t:?}}}").unwrap();
+    }
+    src
+}
+
+#[test]
+fn a_sheet_is_fit_data_with_its_formula_columns() {
+    let rows = synthetic(&[15.0, 25.0, 35.0], 0.03);
+    let want = kernel_fit(&rows);
+    let h = host();
+    eval(
+        &h,
+        &format!("s = sheet.new{{'abm', 'rho', 't'}}\n{}", sheet_adds(&rows)),
+    );
+    eval(
+        &h,
+        &format!(
+            "m = mixture.fit{{data = s, basis = 'abm', density = 'rho', components = {COMPONENTS_LUA}}}"
+        ),
+    );
+    assert_eq!(coefficients(&h, "m"), want.model.coefficients());
+    assert_eq!(
+        num(&h, "m:fit_info().residual_sd"),
+        want.report.residual_sd_rho
+    );
+    assert_eq!(
+        text(&h, "m:fit_info().source"),
+        format!("a sheet of {} rows", rows.len())
+    );
+    // A formula column is read with its current values: `rho * 1` is
+    // exact, so the fit is the same; after a change to a data cell the
+    // formula column follows it and so does the fit.
+    eval(&h, "s:formula('rho_f', 'rho * 1')");
+    eval(
+        &h,
+        &format!(
+            "mf = mixture.fit{{data = s, basis = 'abm', density = 'rho_f', components = {COMPONENTS_LUA}}}"
+        ),
+    );
+    assert_eq!(coefficients(&h, "mf"), want.model.coefficients());
+    eval(&h, "s:set(3, 'rho', s:get(3, 'rho') + 0.5)");
+    assert_eq!(num(&h, "s:get(3, 'rho_f')"), rows[2].1 + 0.5);
+    eval(
+        &h,
+        &format!(
+            "mg = mixture.fit{{data = s, basis = 'abm', density = 'rho_f', components = {COMPONENTS_LUA}}}"
+        ),
+    );
+    let mut moved = rows.clone();
+    moved[2].1 += 0.5;
+    assert_eq!(
+        coefficients(&h, "mg"),
+        kernel_fit(&moved).model.coefficients()
+    );
+    // The fit leaves the sheet as it was.
+    assert_eq!(num(&h, "s:nrows()") as usize, rows.len());
+    assert_eq!(num(&h, "s:ncols()"), 4.0);
+}
+
+#[test]
+fn sheet_data_errors_name_the_sheet_row_and_column() {
+    let rows = synthetic(&[20.0], 0.0);
+    let h = host();
+    eval(
+        &h,
+        &format!("s = sheet.new{{'abm', 'rho', 't'}}\n{}", sheet_adds(&rows)),
+    );
+    fails_with(
+        &h,
+        &fit_call("s", ", density = 'dens'"),
+        &["no column 'dens'", "in the sheet", "'rho'", "'abm'", "'t'"],
+    );
+    eval(&h, "s:set(4, 'rho', 'n/a')");
+    fails_with(
+        &h,
+        &fit_call("s", ""),
+        &["the sheet, data row 4", "'rho'", "n/a"],
+    );
+    eval(&h, "s:set(4, 'rho', nil)");
+    fails_with(
+        &h,
+        &fit_call("s", ""),
+        &["the sheet, data row 4", "'rho'", "empty"],
+    );
+    // An empty sheet has no rows to fit.
+    eval(&h, "e = sheet.new{'abm', 'rho', 't'}");
+    fails_with(&h, &fit_call("e", ""), &["no rows"]);
+}
+
 #[test]
 fn fixed_choices_weights_and_given_pure_densities_reach_the_kernel() {
     let rows = synthetic(&[15.0, 25.0, 35.0], 0.03);

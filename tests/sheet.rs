@@ -557,6 +557,32 @@ fn grid_errors_name_the_point() {
     assert!(dup.wide(|_, _| Ok(1.0), &mut |_, _| {}).is_err());
 }
 
+#[test]
+fn grid_with_gaps_leaves_empty_cells() {
+    let g = Grid {
+        row_name: "abv",
+        row_values: &[10.0, 96.0],
+        col_name: "t",
+        col_values: &[0.0, 20.0],
+    };
+    // No value where the row value is above 90 and the column value below 10.
+    let f = |r: f64, c: f64| Ok((r <= 90.0 || c >= 10.0).then_some(r + c));
+    let long = g.long_partial("v", f, &mut |_, _| {}).unwrap();
+    assert_eq!(long.get(2, "v").unwrap(), CellRef::Empty);
+    assert_eq!(long.get(3, "v").unwrap(), CellRef::Number(116.0));
+    let wide = g.wide_partial(f, &mut |_, _| {}).unwrap();
+    assert_eq!(wide.get(1, "t=0").unwrap(), CellRef::Empty);
+    // Without gaps the value columns stay numeric.
+    assert!(wide.column("t=20").unwrap().as_numbers().is_some());
+    let full = g.long_partial("v", |r, c| Ok(Some(r * c)), &mut |_, _| {});
+    assert!(full.unwrap().column("v").unwrap().as_numbers().is_some());
+    // Errors still stop the build.
+    let e = g
+        .wide_partial(|_, _| Err("boom".into()), &mut |_, _| {})
+        .unwrap_err();
+    assert_eq!(e.to_string(), "table value at abv = 10, t = 0 failed: boom");
+}
+
 // ------------------------------------------------------------ CSV: output
 
 fn to_csv(s: &Sheet) -> String {

@@ -106,7 +106,12 @@ fn resolve(lua: &Lua, path: &str) -> Option<Value> {
             return None;
         }
         cur = match cur {
-            Value::Table(t) => t.raw_get::<Value>(part).ok()?,
+            // Through read-only views (plugin namespaces and the tables
+            // in them), which are empty themselves.
+            Value::Table(t) => super::readonly::inner(lua, &t)
+                .unwrap_or(t)
+                .raw_get::<Value>(part)
+                .ok()?,
             _ => return None,
         };
     }
@@ -134,7 +139,11 @@ fn table_keys(t: &Table, functions_only: bool) -> Vec<String> {
 
 fn member_candidates(lua: &Lua, path: &str, method: bool) -> Vec<String> {
     match resolve(lua, path) {
-        Some(Value::Table(t)) => table_keys(&t, method),
+        Some(Value::Table(t)) => {
+            // A read-only view (a plugin namespace) is empty itself.
+            let t = super::readonly::inner(lua, &t).unwrap_or(t);
+            table_keys(&t, method)
+        }
         Some(Value::UserData(ud)) if ud.is::<MixtureUd>() => {
             let mut names = methods_of(lua, "mixture");
             // Fit-only methods (m:report, …) only where they work.
@@ -144,6 +153,7 @@ fn member_candidates(lua: &Lua, path: &str, method: bool) -> Vec<String> {
             names
         }
         Some(Value::UserData(ud)) if ud.is::<Vector>() => methods_of(lua, "vector"),
+        Some(Value::UserData(ud)) if ud.is::<super::sheet::SheetUd>() => methods_of(lua, "sheet"),
         Some(Value::String(_)) if method => string_methods(lua),
         _ => Vec::new(),
     }

@@ -5,12 +5,13 @@
 //! directory, then a rename), so an error never leaves a half-written file.
 //!
 //! Lua side: `files.read(path)`, `files.write(path, text)`,
-//! `files.exists(path)`. Other namespaces (sheets, plots) use
-//! [`resolve_path`], [`read_text`] and [`write_atomic`].
+//! `files.exists(path)` (`files.read_csv`, `files.write_csv` and
+//! `files.mkdir` are in [`super::files_csv`]). Other namespaces (sheets, plots) use
+//! [`resolve_path`] and [`read_text`], and write through
+//! [`crate::io::write_atomically`].
 
 use std::io::Write;
 use std::path::{Component, Path, PathBuf};
-use std::sync::atomic::{AtomicU64, Ordering};
 
 use mlua::{Lua, Value};
 
@@ -129,43 +130,13 @@ pub fn read_text(lua: &Lua, path: &str) -> mlua::Result<String> {
     std::fs::read_to_string(&p).map_err(|e| runtime(format!("cannot read '{path}': {e}")))
 }
 
-static TEMP_COUNTER: AtomicU64 = AtomicU64::new(0);
-
-/// Writes `bytes` to `path` atomically: a temporary file in the same
-/// directory, flushed to disk, then renamed over the target. On any error
-/// the temporary file is removed and the target is untouched.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    let dir = path.parent().unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "out".into());
-    let tmp = dir.join(format!(
-        ".{name}.{}.{}.tmp",
-        std::process::id(),
-        TEMP_COUNTER.fetch_add(1, Ordering::Relaxed)
-    ));
-    let result = (|| {
-        let mut f = std::fs::OpenOptions::new()
-            .write(true)
-            .create_new(true)
-            .open(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        drop(f);
-        std::fs::rename(&tmp, path)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result
-}
-
 /// Writes text a script produced to a path it named: [`resolve_path`] for
-/// writing, then [`write_atomic`]. Returns the canonical path written.
+/// writing, then [`crate::io::write_atomically`]. Returns the canonical
+/// path written.
 pub fn write_text(lua: &Lua, path: &str, text: &[u8]) -> mlua::Result<PathBuf> {
     let p = resolve_path(lua, path, true)?;
-    write_atomic(&p, text).map_err(|e| runtime(format!("cannot write '{path}': {e}")))?;
+    crate::io::write_atomically(&p, |w| w.write_all(text))
+        .map_err(|e| runtime(format!("cannot write '{path}': {e}")))?;
     Ok(p)
 }
 
@@ -229,7 +200,9 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         lua,
         "files",
         "files (namespace)",
-        "files.read(path), files.write(path, text), files.exists(path).\n\
+        "files.read(path), files.write(path, text), files.exists(path),\n\
+         files.read_csv(path), files.write_csv(path, columns, rows),\n\
+         files.mkdir(path).\n\
          Only paths under the working directory or a directory allowed with\n\
          --allow-path; writes replace the file atomically.",
     )?;

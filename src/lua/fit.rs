@@ -16,10 +16,11 @@
 //! that was not fitted. Rust code reaches the fit with [`fit_of`].
 //!
 //! Data: `data=` is a CSV path (read through [`files`](super::files) and
-//! [`Sheet::read_csv`]), a Lua table of row tables, or a table of columns;
-//! every cell used must be a finite number, and an error names the row and
-//! the column. A sheet userdata is the natural fourth form: see
-//! [`FitData::from_sheet`] and the hook in `read_data`.
+//! [`Sheet::read_csv`]), a sheet (`sheet.new`, `sheet.read_csv`, …: its
+//! current cells, formula columns included, through
+//! [`FitData::from_sheet`]), a Lua table of row tables, or a table of
+//! columns; every cell used must be a finite number, and an error names the
+//! row and the column.
 
 use std::cell::Cell;
 use std::fmt::Write as _;
@@ -147,9 +148,8 @@ pub struct FitData {
 
 impl FitData {
     /// Data from a kernel sheet, `label` naming it in messages and as the
-    /// default source. This is the entry point for a sheet binding: a
-    /// sheet userdata given as `data=` becomes `FitData::from_sheet(the
-    /// sheet, "sheet …")`.
+    /// default source (a CSV file read for the fit, or a copy of a sheet
+    /// userdata's cells).
     pub fn from_sheet(sheet: Sheet, label: impl Into<String>) -> FitData {
         let label = label.into();
         FitData {
@@ -317,7 +317,7 @@ impl FitData {
     }
 }
 
-/// Reads `data=`: a CSV path, a table of rows or a table of columns.
+/// Reads `data=`: a CSV path, a sheet, a table of rows or a table of columns.
 fn read_data(lua: &Lua, v: &Value, func: &str) -> mlua::Result<FitData> {
     match v {
         Value::String(s) => {
@@ -329,13 +329,17 @@ fn read_data(lua: &Lua, v: &Value, func: &str) -> mlua::Result<FitData> {
             Ok(FitData::from_sheet(sheet, format!("'{path}'")))
         }
         Value::Table(t) => read_table(t, func),
-        // Hook for sheets: once the sheet binding exists, a sheet userdata
-        // is accepted here with one arm,
-        //   Value::UserData(ud) if ud.is::<super::sheet::SheetUd>() =>
-        //       Ok(FitData::from_sheet(<its kernel Sheet>.clone(), "sheet")),
-        // everything after that (columns, checks, messages) is shared.
+        Value::UserData(ud) if ud.is::<super::sheet::SheetUd>() => {
+            // A copy, so the sheet stays free for the formulas the fit
+            // may call (a mixture's methods) while its columns are read.
+            let sheet = super::sheet::snapshot(lua, ud, func)?;
+            let source = format!("a sheet of {} rows", sheet.nrows());
+            let mut data = FitData::from_sheet(sheet, "the sheet");
+            data.source = source;
+            Ok(data)
+        }
         other => Err(runtime(format!(
-            "{func}: data must be a CSV file path, a table of rows like {{{{w = 0.1, density = 981.2, t = 20}}, …}} \
+            "{func}: data must be a CSV file path, a sheet, a table of rows like {{{{w = 0.1, density = 981.2, t = 20}}, …}} \
              or a table of columns like {{w = {{…}}, density = {{…}}, t = {{…}}}}, got {}",
             describe_value(other)
         ))),
@@ -650,7 +654,7 @@ fn read_fit_args(lua: &Lua, arg: &Value) -> mlua::Result<(FitSpec, Vec<FitRow>, 
     };
     let Some(data_v) = f.get("data")? else {
         return Err(runtime(format!(
-            "{func}: data is required (a CSV path, a table of rows or a table of columns)"
+            "{func}: data is required (a CSV path, a sheet, a table of rows or a table of columns)"
         )));
     };
     let data = read_data(lua, &data_v, func)?;
@@ -1261,7 +1265,8 @@ fn help_entries() -> Vec<(&'static str, &'static str, String, &'static [&'static
                 "Fits a binary mixture to measured densities and returns it as a mixture\n\
                  with every method of mixture.ethanol_water(), plus the fit-only methods\n\
                  {}.\n\n\
-                 data: a CSV file path (header row, one row per measurement), a table of\n\
+                 data: a CSV file path (header row, one row per measurement), a sheet\n\
+                 (its current cells, formula columns included), a table of\n\
                  rows {{{{w = 0.1, density = 981.2, t = 20}}, …}} or a table of columns\n\
                  {{w = {{…}}, density = {{…}}, t = {{…}}}}. Every cell used must be a number.\n\
                  basis: how composition is given: w (mass fraction of the first component,\n\

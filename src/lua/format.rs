@@ -242,6 +242,8 @@ impl Formatter<'_> {
                 return self.tostring(&Value::Table(t.clone()));
             }
         }
+        // A read-only view (a plugin namespace) shows what it reads through to.
+        let t = &super::readonly::inner(self.lua, t).unwrap_or_else(|| t.clone());
         let ptr = t.to_pointer();
         if self.seen.contains(&ptr) {
             return "<cycle>".into();

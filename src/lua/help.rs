@@ -231,6 +231,7 @@ pub fn help_for_value(lua: &Lua, v: &Value) -> String {
         Value::String(s) => help_text(lua, &s.to_string_lossy()),
         Value::UserData(ud) if ud.is::<MixtureUd>() => help_text(lua, "mixture"),
         Value::UserData(ud) if ud.is::<Vector>() => help_text(lua, "vector"),
+        Value::UserData(ud) if ud.is::<super::sheet::SheetUd>() => help_text(lua, "sheet"),
         other => match tagged_name(lua, other) {
             Some(name) => help_text(lua, &name),
             None => format!(

@@ -244,6 +244,39 @@ pub fn check_alloc(lua: &Lua, what: &str, elements: usize) -> mlua::Result<()> {
     )))
 }
 
+/// Checks that `bytes` more of Rust memory may be held for a script (a
+/// sheet, say), as [`check_alloc`] does for vectors. `Err` carries the
+/// figures for the caller's message: `memory limit X MiB, Y MiB in use`.
+pub fn check_bytes(lua: &Lua, bytes: usize) -> Result<(), String> {
+    let Some(mem) = rust_memory(lua) else {
+        return Ok(());
+    };
+    let fits = |lua: &Lua| {
+        lua.used_memory()
+            .saturating_add(mem.live())
+            .saturating_add(bytes)
+            <= mem.limit.get()
+    };
+    if fits(lua) {
+        return Ok(());
+    }
+    let _ = lua.gc_collect();
+    let _ = lua.gc_collect();
+    if fits(lua) {
+        return Ok(());
+    }
+    Err(format!(
+        "memory limit {} MiB, {} MiB in use",
+        mib(mem.limit.get()),
+        mib(lua.used_memory() + mem.live())
+    ))
+}
+
+/// Megabytes of `bytes`, formatted for messages.
+pub fn fmt_mib(bytes: usize) -> String {
+    mib(bytes)
+}
+
 /// A block of Rust memory held for a script; released when dropped.
 #[derive(Debug)]
 pub struct Allocation {
@@ -254,7 +287,11 @@ pub struct Allocation {
 impl Allocation {
     /// Records `elements` f64 values as held (call [`check_alloc`] first).
     pub fn new(lua: &Lua, elements: usize) -> Allocation {
-        let bytes = elements * std::mem::size_of::<f64>();
+        Allocation::of_bytes(lua, elements * std::mem::size_of::<f64>())
+    }
+
+    /// Records `bytes` of Rust memory as held (call [`check_bytes`] first).
+    pub fn of_bytes(lua: &Lua, bytes: usize) -> Allocation {
         let mem = rust_memory(lua);
         if let Some(m) = &mem {
             m.live.set(m.live.get() + bytes);

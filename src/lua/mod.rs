@@ -5,8 +5,9 @@
 //! Submodules: [`sandbox`] (which parts of Lua scripts get), [`limits`]
 //! (time, Ctrl-C, Rust memory), [`errors`] (messages for users),
 //! [`convert`] (argument conversion and bulk evaluation), [`vector`],
-//! [`mixture`], [`files`], [`help`], [`format`], [`complete`]. Each Lua
-//! namespace has one `register(lua)`.
+//! [`mixture`], [`files`], [`help`], [`format`], [`complete`],
+//! [`readonly`] (shared tables as read-only views), [`sheet`],
+//! [`plugins`]. Each Lua namespace has one `register(lua)`.
 
 #[cfg(feature = "plot")]
 pub mod chart;
@@ -22,8 +23,11 @@ pub mod limits;
 pub mod mixture;
 #[cfg(feature = "plot")]
 pub mod plot;
+pub mod plugins;
 pub mod process;
+pub mod readonly;
 pub mod sandbox;
+pub mod sheet;
 pub mod units;
 pub mod vector;
 
@@ -41,6 +45,7 @@ use mlua::{Function, Lua, MultiValue, Value};
 pub use convert::{Fields, Numbers};
 pub use help::{add_help, HelpEntry};
 pub use mixture::{mixture_userdata, MixtureUd};
+pub use plugins::{PluginInfo, PluginProblem};
 pub use vector::Vector;
 
 use limits::{Budget, RustMemory};
@@ -49,8 +54,12 @@ use sandbox::Output;
 /// How a host is set up (from the command line or an embedder).
 #[derive(Debug, Clone)]
 pub struct HostOptions {
-    /// Extra plugin directories (`--plugins`).
+    /// Extra plugin directories (`--plugins`), searched after the standard ones.
     pub plugin_dirs: Vec<PathBuf>,
+    /// Also search the standard plugin directories: `./plugins` and the
+    /// user's `<config dir>/meniscus/plugins` (true by default; embedders and
+    /// tests that want only `plugin_dirs` turn it off).
+    pub standard_plugin_dirs: bool,
     /// Directories besides the working directory that scripts may read and
     /// write through meniscus functions (`--allow-path`).
     pub allow_paths: Vec<PathBuf>,
@@ -67,6 +76,7 @@ impl Default for HostOptions {
     fn default() -> Self {
         Self {
             plugin_dirs: Vec::new(),
+            standard_plugin_dirs: true,
             allow_paths: Vec::new(),
             memory_limit: 1024 * 1024 * 1024,
             timeout: None,
@@ -119,7 +129,12 @@ pub struct Host {
     options: HostOptions,
     interrupt: Arc<AtomicBool>,
     budget: Rc<Budget>,
+    plugins: Vec<PluginInfo>,
+    plugin_problems: Vec<PluginProblem>,
 }
+
+/// Time a plugin file may take to load when the host has no time limit.
+const PLUGIN_LOAD_TIMEOUT: Duration = Duration::from_secs(10);
 
 /// Lua memory limits below this leave no room for the API itself.
 const MIN_MEMORY: usize = 4 * 1024 * 1024;
@@ -156,6 +171,9 @@ fn build(
     plot::register(&lua)?;
     #[cfg(feature = "plot")]
     chart::register(&lua)?;
+    readonly::register(&lua)?;
+    sheet::register(&lua)?;
+    plugins::register(&lua)?;
     limits::install_hook(&lua, budget.clone())?;
     lua.set_memory_limit(options.memory_limit + headroom(options.memory_limit))?;
     Ok((lua, budget))
@@ -193,12 +211,74 @@ impl Host {
     pub fn new(options: HostOptions) -> Result<Host, HostError> {
         let interrupt = Arc::new(AtomicBool::new(false));
         let (lua, budget) = build(&options, interrupt.clone())?;
-        Ok(Host {
+        let mut host = Host {
             lua,
             options,
             interrupt,
             budget,
-        })
+            plugins: Vec::new(),
+            plugin_problems: Vec::new(),
+        };
+        host.load_plugins();
+        Ok(host)
+    }
+
+    /// Loads the plugins from [`Host::plugin_dirs`], reporting each one
+    /// skipped on stderr (and in [`Host::plugin_problems`]).
+    fn load_plugins(&mut self) {
+        let reserved = plugins::reserved_names(&self.lua);
+        let mut loaded: Vec<PluginInfo> = Vec::new();
+        let mut problems = Vec::new();
+        let timeout = self.options.timeout.or(Some(PLUGIN_LOAD_TIMEOUT));
+        for dir in self.plugin_dirs() {
+            let explicit = self.options.plugin_dirs.contains(&dir);
+            let files = match plugins::plugin_files(&dir) {
+                Ok(f) => f,
+                // A standard directory that does not exist is normal.
+                Err(e) if !explicit && e.kind() == std::io::ErrorKind::NotFound => continue,
+                Err(e) => {
+                    problems.push(PluginProblem {
+                        path: dir.clone(),
+                        message: format!("cannot read the plugin directory: {e}"),
+                    });
+                    continue;
+                }
+            };
+            for file in files {
+                let r = self.guarded_with(timeout, || {
+                    self.limited(|| plugins::load_plugin(&self.lua, &file, &reserved, &loaded))
+                });
+                match r {
+                    Ok(info) => loaded.push(info),
+                    Err(e) => problems.push(PluginProblem {
+                        path: file,
+                        message: e.message,
+                    }),
+                }
+            }
+        }
+        for p in &problems {
+            eprintln!("meniscus: {p}");
+        }
+        plugins::set_loaded(&self.lua, loaded.clone());
+        self.plugins = loaded;
+        self.plugin_problems = problems;
+    }
+
+    /// The plugin directories searched, in order: `./plugins` and the
+    /// user's plugin directory (unless turned off), then `--plugins` ones.
+    pub fn plugin_dirs(&self) -> Vec<PathBuf> {
+        plugins::search_dirs(self.options.standard_plugin_dirs, &self.options.plugin_dirs)
+    }
+
+    /// The plugins loaded, in load order.
+    pub fn plugins(&self) -> Vec<PluginInfo> {
+        self.plugins.clone()
+    }
+
+    /// The plugin files skipped at the last (re)start, with the reasons.
+    pub fn plugin_problems(&self) -> Vec<PluginProblem> {
+        self.plugin_problems.clone()
     }
 
     /// The options this host was made with.
@@ -215,7 +295,16 @@ impl Host {
     /// panics caught and reported as bugs, errors described for the user,
     /// and a stopped evaluation reported even if the script swallowed it.
     fn guarded<R>(&self, f: impl FnOnce() -> mlua::Result<R>) -> Result<R, HostError> {
-        self.budget.begin(self.options.timeout);
+        self.guarded_with(self.options.timeout, f)
+    }
+
+    /// [`Host::guarded`] with another time budget.
+    fn guarded_with<R>(
+        &self,
+        timeout: Option<Duration>,
+        f: impl FnOnce() -> mlua::Result<R>,
+    ) -> Result<R, HostError> {
+        self.budget.begin(timeout);
         let result = catch_unwind(AssertUnwindSafe(f));
         let stopped = self.budget.end();
         match result {
@@ -250,9 +339,14 @@ impl Host {
 
     /// Calls a compiled chunk with the scripts' memory limit in force.
     fn call_limited<R: mlua::FromLuaMulti>(&self, f: &Function) -> mlua::Result<R> {
+        self.limited(|| f.call::<R>(()))
+    }
+
+    /// Runs `f` with the scripts' memory limit in force.
+    fn limited<R>(&self, f: impl FnOnce() -> mlua::Result<R>) -> mlua::Result<R> {
         let limit = self.options.memory_limit;
         self.lua.set_memory_limit(limit)?;
-        let r = f.call::<R>(());
+        let r = f();
         self.lua.set_memory_limit(limit + headroom(limit))?;
         r
     }
@@ -353,6 +447,7 @@ impl Host {
         let (lua, budget) = build(&self.options, self.interrupt.clone())?;
         self.lua = lua;
         self.budget = budget;
+        self.load_plugins();
         Ok(())
     }
 

@@ -148,6 +148,8 @@ impl Session {
                 match globals.get::<mlua::Value>(name.as_str()) {
                     Ok(mlua::Value::Function(_)) => out.push_str(&format!("{name}()\n")),
                     Ok(mlua::Value::Table(t)) if name != "_G" => {
+                        // A plugin namespace is a read-only view: list what it shows.
+                        let t = crate::lua::readonly::inner(self.host.lua(), &t).unwrap_or(t);
                         let mut members: Vec<String> = t
                             .pairs::<mlua::Value, mlua::Value>()
                             .filter_map(|p| p.ok())
@@ -185,23 +187,49 @@ impl Session {
         out
     }
 
-    /// `:plugins`.
+    /// `:plugins`: the plugins loaded (and those skipped, with the
+    /// reason), then the directories searched and the plugin files in them.
     fn plugins(&self) -> String {
-        let dirs = &self.host.options().plugin_dirs;
-        if dirs.is_empty() {
-            return "no plugin directories (add one with --plugins DIR)\n".to_string();
-        }
         let mut out = String::new();
+        let loaded = self.host.plugins();
+        if loaded.is_empty() {
+            out.push_str("no plugins loaded\n");
+        } else {
+            out.push_str("loaded plugins:\n");
+            let width = loaded.iter().map(|p| p.name.len()).max().unwrap_or(0);
+            for p in &loaded {
+                out.push_str(&format!(
+                    "  {:width$}  {}  {}\n  {:width$}  from {}\n",
+                    p.name,
+                    p.version,
+                    p.description,
+                    "",
+                    p.path.display()
+                ));
+            }
+        }
+        for problem in self.host.plugin_problems() {
+            out.push_str(&format!("{problem}\n"));
+        }
+        let dirs = self.host.plugin_dirs();
+        if dirs.is_empty() {
+            out.push_str("no plugin directories (add one with --plugins DIR)\n");
+            return out;
+        }
+        out.push_str("plugin directories, searched in this order (add more with --plugins DIR):\n");
         for dir in dirs {
-            out.push_str(&format!("{}\n", dir.display()));
-            match plugin_files(dir) {
-                Ok(files) if files.is_empty() => out.push_str("  (no .lua files)\n"),
+            out.push_str(&format!("  {}\n", dir.display()));
+            match plugin_files(&dir) {
+                Ok(files) if files.is_empty() => out.push_str("    (no .lua files)\n"),
                 Ok(files) => {
                     for f in files {
-                        out.push_str(&format!("  {f}\n"));
+                        out.push_str(&format!("    {f}\n"));
                     }
                 }
-                Err(e) => out.push_str(&format!("  (cannot read: {e})\n")),
+                Err(e) if e.kind() == io::ErrorKind::NotFound => {
+                    out.push_str("    (does not exist)\n")
+                }
+                Err(e) => out.push_str(&format!("    (cannot read: {e})\n")),
             }
         }
         out
@@ -227,22 +255,18 @@ fn global_names(host: &Host) -> Vec<String> {
     names
 }
 
-/// Plugin files in one directory: `*.lua` files and subdirectories with an
-/// `init.lua`, sorted.
+/// Plugin files in one directory, as the host finds them (`*.lua` files
+/// and subdirectories with an `init.lua`), named relative to it, sorted.
 fn plugin_files(dir: &std::path::Path) -> io::Result<Vec<String>> {
-    let mut out = Vec::new();
-    for entry in std::fs::read_dir(dir)? {
-        let path = entry?.path();
-        let name = path.file_name().map(|n| n.to_string_lossy().into_owned());
-        let Some(name) = name else { continue };
-        if path.is_dir() && path.join("init.lua").is_file() {
-            out.push(format!("{name}/init.lua"));
-        } else if path.extension().is_some_and(|e| e == "lua") {
-            out.push(name);
-        }
-    }
-    out.sort();
-    Ok(out)
+    Ok(crate::lua::plugins::plugin_files(dir)?
+        .iter()
+        .map(|p| {
+            p.strip_prefix(dir)
+                .unwrap_or(p)
+                .to_string_lossy()
+                .into_owned()
+        })
+        .collect())
 }
 
 /// Describes the global value at a dotted path (`math`, `string.format`).
@@ -269,6 +293,8 @@ fn describe(host: &Host, name: &str) -> Result<String, String> {
     Ok(match value {
         mlua::Value::Function(_) => format!("{name} is a function\n"),
         mlua::Value::Table(t) => {
+            // A plugin namespace is a read-only view: describe what it shows.
+            let t = crate::lua::readonly::inner(host.lua(), &t).unwrap_or(t);
             let mut keys: Vec<String> = t
                 .pairs::<mlua::Value, mlua::Value>()
                 .filter_map(|p| p.ok())
@@ -798,6 +824,39 @@ mod tests {
             .unwrap_err()
             .contains("'math.nope'"));
         assert!(describe(&host, "math.pi.x").is_err());
+    }
+
+    #[test]
+    fn describe_and_list_show_what_a_plugin_namespace_offers() {
+        // A plugin namespace is an empty read-only view of its table:
+        // `:help name` and `:list all` must show the functions behind it.
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(
+            dir.path().join("cellar.lua"),
+            "return { name = 'cellar', version = '0.1', api = 1, description = 'test',
+               functions = { dip = { fn = function(x) return x end, doc = 'd',
+                                     args = { { name = 'x', doc = 'x' } } } } }",
+        )
+        .unwrap();
+        let options = HostOptions {
+            plugin_dirs: vec![dir.path().to_path_buf()],
+            standard_plugin_dirs: false,
+            ..HostOptions::default()
+        };
+        let session = Session::new(options, false).unwrap();
+        let host = session.host();
+        assert_eq!(
+            host.plugins()
+                .iter()
+                .map(|p| p.name.as_str())
+                .collect::<Vec<_>>(),
+            ["cellar"]
+        );
+        assert_eq!(
+            describe(host, "cellar").unwrap(),
+            "cellar is a table: dip()\n"
+        );
+        assert!(session.list(true).contains("cellar.dip()\n"));
     }
 
     #[test]

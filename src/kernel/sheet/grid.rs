@@ -3,7 +3,7 @@
 //! the value function; the grid lays the results out as a sheet, either in
 //! long form (one row per pair) or wide form (one column per column value).
 
-use super::cells::ColumnData;
+use super::cells::{ColumnData, Value};
 use super::Sheet;
 use crate::kernel::error::{Error, Result};
 
@@ -42,12 +42,28 @@ impl Grid<'_> {
     where
         F: FnMut(f64, f64) -> Result<f64, String>,
     {
+        self.long_partial(value_name, |r, c| f(r, c).map(Some), on_progress)
+    }
+
+    /// [`Grid::long`] for a table with gaps: `f(r, c)` returns `Ok(None)`
+    /// where the pair has no value (e.g. outside a model's validity range),
+    /// and that cell is left empty. The value column stays numeric when
+    /// there is no gap.
+    pub fn long_partial<F>(
+        &self,
+        value_name: &str,
+        mut f: F,
+        on_progress: &mut dyn FnMut(usize, usize),
+    ) -> Result<Sheet>
+    where
+        F: FnMut(f64, f64) -> Result<Option<f64>, String>,
+    {
         self.check()?;
         let total = self.points();
         let (mut rs, mut cs, mut vs) = (
             Vec::with_capacity(total),
             Vec::with_capacity(total),
-            Vec::with_capacity(total),
+            Gapped::with_capacity(total),
         );
         for &r in self.row_values {
             for &c in self.col_values {
@@ -55,12 +71,12 @@ impl Grid<'_> {
                 cs.push(c);
                 vs.push(self.value(&mut f, r, c)?);
             }
-            on_progress(vs.len(), total);
+            on_progress(rs.len(), total);
         }
         Sheet::from_columns(vec![
             (self.row_name, ColumnData::Numbers(rs)),
             (self.col_name, ColumnData::Numbers(cs)),
-            (value_name, ColumnData::Numbers(vs)),
+            (value_name, vs.into_data()),
         ])
     }
 
@@ -74,10 +90,24 @@ impl Grid<'_> {
     where
         F: FnMut(f64, f64) -> Result<f64, String>,
     {
+        self.wide_partial(|r, c| f(r, c).map(Some), on_progress)
+    }
+
+    /// [`Grid::wide`] for a table with gaps, as [`Grid::long_partial`].
+    pub fn wide_partial<F>(
+        &self,
+        mut f: F,
+        on_progress: &mut dyn FnMut(usize, usize),
+    ) -> Result<Sheet>
+    where
+        F: FnMut(f64, f64) -> Result<Option<f64>, String>,
+    {
         self.check()?;
         let total = self.points();
         let nr = self.row_values.len();
-        let mut cols: Vec<Vec<f64>> = vec![Vec::with_capacity(nr); self.col_values.len()];
+        let mut cols: Vec<Gapped> = (0..self.col_values.len())
+            .map(|_| Gapped::with_capacity(nr))
+            .collect();
         let mut done = 0;
         for &r in self.row_values {
             for (j, &c) in self.col_values.iter().enumerate() {
@@ -91,19 +121,20 @@ impl Grid<'_> {
             ColumnData::Numbers(self.row_values.to_vec()),
         )];
         for (&c, v) in self.col_values.iter().zip(cols) {
-            columns.push((format!("{}={c}", self.col_name), ColumnData::Numbers(v)));
+            columns.push((format!("{}={c}", self.col_name), v.into_data()));
         }
         Sheet::from_columns(columns)
     }
 
-    fn value<F>(&self, f: &mut F, r: f64, c: f64) -> Result<f64>
+    fn value<F>(&self, f: &mut F, r: f64, c: f64) -> Result<Option<f64>>
     where
-        F: FnMut(f64, f64) -> Result<f64, String>,
+        F: FnMut(f64, f64) -> Result<Option<f64>, String>,
     {
         let at = || format!("{} = {r}, {} = {c}", self.row_name, self.col_name);
         match f(r, c) {
-            Ok(v) if v.is_finite() => Ok(v),
-            Ok(v) => Err(Error::Invalid(format!(
+            Ok(None) => Ok(None),
+            Ok(Some(v)) if v.is_finite() => Ok(Some(v)),
+            Ok(Some(v)) => Err(Error::Invalid(format!(
                 "table value at {} must be a finite number, got {v}",
                 at()
             ))),
@@ -127,5 +158,38 @@ impl Grid<'_> {
             }
         }
         Ok(())
+    }
+}
+
+/// A column of table values that stays a plain `Vec<f64>` until the first
+/// gap, so a table without gaps costs no more than before.
+enum Gapped {
+    Numbers(Vec<f64>),
+    Values(Vec<Value>),
+}
+
+impl Gapped {
+    fn with_capacity(n: usize) -> Self {
+        Gapped::Numbers(Vec::with_capacity(n))
+    }
+
+    fn push(&mut self, v: Option<f64>) {
+        match (&mut *self, v) {
+            (Gapped::Numbers(xs), Some(x)) => xs.push(x),
+            (Gapped::Values(vs), v) => vs.push(Value::from(v)),
+            (Gapped::Numbers(xs), None) => {
+                let mut vs: Vec<Value> = Vec::with_capacity(xs.capacity());
+                vs.extend(xs.iter().map(|&x| Value::Number(x)));
+                vs.push(Value::Empty);
+                *self = Gapped::Values(vs);
+            }
+        }
+    }
+
+    fn into_data(self) -> ColumnData {
+        match self {
+            Gapped::Numbers(xs) => ColumnData::Numbers(xs),
+            Gapped::Values(vs) => ColumnData::Values(vs),
+        }
     }
 }
