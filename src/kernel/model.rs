@@ -107,12 +107,20 @@ pub trait Mixture: Send + Sync {
     /// Density of pure component 1 (`i = 0`) or 2 (`i = 1`) at `t`, kg/m³.
     fn pure_density(&self, i: usize, t: f64) -> Result<f64> {
         let v = self.validity();
-        let w = if i == 0 { v.w_max } else { v.w_min };
+        let w = match i {
+            0 => v.w_max,
+            1 => v.w_min,
+            _ => {
+                return Err(super::Error::Invalid(format!(
+                    "component index {i} does not exist: a binary mixture has components 0 and 1"
+                )))
+            }
+        };
         if (i == 0 && v.w_max < 1.0) || (i == 1 && v.w_min > 0.0) {
             return Err(super::Error::Invalid(format!(
                 "{} does not cover pure {}",
                 self.name(),
-                self.components()[i.min(1)].name
+                self.components()[i].name
             )));
         }
         self.density(w, t)
@@ -238,9 +246,13 @@ pub trait Mixture: Send + Sync {
     }
 
     /// Volume at `t_to` of a liquid of mass fraction `w` that measures
-    /// `volume` at `t_from` (mass conserved). Same unit in and out.
+    /// `volume` (finite, not negative) at `t_from` (mass conserved). Same
+    /// unit in and out.
     fn volume_at(&self, volume: f64, w: f64, t_from: f64, t_to: f64) -> Result<f64> {
-        Ok(volume * self.volume_correction_factor(w, t_from, t_to)?)
+        let volume = in_range("volume", volume, 0.0, f64::MAX, "")?;
+        let v = volume * self.volume_correction_factor(w, t_from, t_to)?;
+        // A volume near f64::MAX can overflow on expansion.
+        super::error::finite("volume after correction", v)
     }
 
     /// The factor V(t_to)/V(t_from) = ρ(t_from)/ρ(t_to).

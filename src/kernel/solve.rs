@@ -21,9 +21,20 @@ pub fn solve_increasing(
     guess: f64,
     what: &'static str,
 ) -> Result<f64> {
+    if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+        return Err(Error::Invalid(format!(
+            "{what}: the bracket [{lo}, {hi}] is not a finite interval"
+        )));
+    }
+    let target = finite(what, target)?;
     let (mut a, mut b) = (lo, hi);
     let (fa, _) = f(a);
     let (fb, _) = f(b);
+    if !(fa.is_finite() && fb.is_finite()) {
+        return Err(Error::Invalid(format!(
+            "{what}: the function is not finite at the ends of [{lo}, {hi}]"
+        )));
+    }
     if target <= fa {
         return Ok(a);
     }
@@ -39,6 +50,11 @@ pub fn solve_increasing(
     for _ in 0..MAX_ITER {
         let (fw, dfw) = f(w);
         let g = fw - target;
+        if g.is_nan() {
+            return Err(Error::Invalid(format!(
+                "{what}: the function is NaN at {w}"
+            )));
+        }
         if g == 0.0 {
             return Ok(w);
         }
