@@ -90,7 +90,11 @@ pub fn dx_dw(w: f64, m1: f64, m2: f64) -> f64 {
 pub fn abv<M: Mixture + ?Sized>(m: &M, w: f64, t_ref: f64) -> Result<f64> {
     let w = m.check_w(w)?;
     let rho1 = m.pure_density(0, t_ref)?;
-    Ok(100.0 * w * m.rho(w, t_ref) / rho1)
+    // Rounding in a high-degree density polynomial jitters ρ by ~1e-13
+    // relative just below w = 1, which can put the ratio a hair above 100 %
+    // vol; clamp so that every computed % vol converts back without a range
+    // error.
+    Ok((100.0 * (w * (m.rho(w, t_ref) / rho1))).clamp(0.0, 100.0))
 }
 
 /// d(% vol)/dw at `t_ref` (both checked).

@@ -50,6 +50,8 @@ const C1: [f64; 11] = [
     -7.420201433430137e3,
     1.285617841998974e3,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C2: [f64; 10] = [
     -1.193013005057010e-2,
     2.517399633803461e-1,
@@ -62,6 +64,8 @@ const C2: [f64; 10] = [
     -4.414153236817392e1,
     7.442971530188783,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C3: [f64; 9] = [
     -6.802995733503803e-4,
     1.876837790289664e-2,
@@ -73,6 +77,8 @@ const C3: [f64; 9] = [
     2.458043105903461,
     -5.411227621436812e-1,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C4: [f64; 4] = [
     4.075376675622027e-6,
     -8.763058573471110e-6,
