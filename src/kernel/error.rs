@@ -64,6 +64,15 @@ pub enum Error {
         residual: f64,
     },
 
+    /// A bad point in a slice (bulk) call: which one, and what is wrong.
+    #[error("point {index}: {source}")]
+    AtPoint {
+        /// Index of the first bad point in the input slices.
+        index: usize,
+        /// What is wrong with it.
+        source: Box<Error>,
+    },
+
     /// Any other invalid argument, described in words.
     #[error("{0}")]
     Invalid(String),

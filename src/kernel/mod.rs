@@ -1,6 +1,7 @@
 //! The calculation kernel: pure numerics, no I/O, no Lua. Everything a
 //! mixture can do is reached through the [`Mixture`] trait.
 
+pub mod bulk;
 pub mod composition;
 pub mod error;
 pub mod hydrometer;

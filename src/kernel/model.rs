@@ -5,6 +5,7 @@
 //! method, so the reference equation and a mixture fitted from user data get
 //! all of them.
 
+use super::bulk;
 use super::composition::{self, Composition, Strength};
 use super::error::{in_range, Result};
 use super::hydrometer::{self, HydrometerScale};
@@ -259,5 +260,28 @@ pub trait Mixture: Send + Sync {
     fn volume_correction_factor(&self, w: f64, t_from: f64, t_to: f64) -> Result<f64> {
         let w = self.check_w(w)?;
         Ok(self.rho(w, self.check_t(t_from)?) / self.rho(w, self.check_t(t_to)?))
+    }
+
+    // ---- bulk (slice) versions ------------------------------------------
+
+    /// `out[i] = ρ(w[i], t[i])` in kg/m³ for equally long slices. All points
+    /// are checked first; the first bad one is reported as
+    /// [`Error::AtPoint`](super::Error::AtPoint) and `out` is left untouched.
+    fn density_slice(&self, w: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::density_slice(self, w, t, out)
+    }
+
+    /// `out[i] = ∂ρ/∂w(w[i], t[i])` in kg/m³ per unit mass fraction, checked
+    /// like [`Mixture::density_slice`].
+    fn drho_dw_slice(&self, w: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::drho_dw_slice(self, w, t, out)
+    }
+
+    /// `out[i]` = mass fraction from density `rho[i]` (kg/m³) measured at
+    /// `t[i]` °C, as [`Mixture::w_from_density`] point by point. On the
+    /// first bad point it returns [`Error::AtPoint`](super::Error::AtPoint);
+    /// `out` then holds the points before it.
+    fn w_from_density_slice(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::w_from_density_slice(self, rho, t, out)
     }
 }
