@@ -359,6 +359,25 @@ fn exercise_everything(a: f64, b: f64, c: f64, d: f64) -> Result<(), TestCaseErr
         }
     }
 
+    // bulk functions, on a chunk and a half of wild points
+    let xs: Vec<f64> = [a, b, c, d].iter().cycle().take(97).copied().collect();
+    let ys: Vec<f64> = [b, c, d, a, 20.0]
+        .iter()
+        .cycle()
+        .take(97)
+        .copied()
+        .collect();
+    let mut out = vec![0.0; 97];
+    for r in [
+        m.density_slice(&xs, &ys, &mut out),
+        m.drho_dw_slice(&xs, &ys, &mut out),
+        m.w_from_density_slice(&xs, &ys, &mut out),
+    ] {
+        if r.is_ok() {
+            prop_assert!(out.iter().all(|v| v.is_finite()), "bulk Ok with {out:?}");
+        }
+    }
+
     // pub free functions
     ok_finite("composition::abv", composition::abv(&m, a, b))?;
     ok_finite("composition::dabv_dw", composition::dabv_dw(&m, a, b))?;
@@ -477,4 +496,139 @@ fn volume_at_rejects_bad_volumes() {
     assert!(m.volume_at(-1.0, 0.4, 20.0, 30.0).is_err());
     assert!(m.volume_at(f64::MAX, 0.4, 0.0, 40.0).is_err());
     assert!(m.volume_at(1.0, 0.4, 20.0, 30.0).unwrap() > 1.0);
+}
+
+// ---- bulk (slice) functions --------------------------------------------------
+
+/// Up to 300 points over the validity range.
+fn any_points() -> impl Strategy<Value = Vec<(f64, f64)>> {
+    proptest::collection::vec((any_w(), any_t()), 0..300)
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    /// The slice functions give bit for bit the point functions' values,
+    /// whichever vector width the CPU runs them at.
+    #[test]
+    fn forward_slices_equal_point_values(points in any_points()) {
+        let m = model();
+        let (w, t): (Vec<f64>, Vec<f64>) = points.into_iter().unzip();
+        let mut rho = vec![0.0; w.len()];
+        let mut slope = vec![0.0; w.len()];
+        m.density_slice(&w, &t, &mut rho).unwrap();
+        m.drho_dw_slice(&w, &t, &mut slope).unwrap();
+        for i in 0..w.len() {
+            prop_assert_eq!(rho[i].to_bits(), m.rho(w[i], t[i]).to_bits(), "density at {}", i);
+            prop_assert_eq!(slope[i].to_bits(), m.drho_dw(w[i], t[i]).to_bits(), "slope at {}", i);
+        }
+    }
+
+    /// The bulk density solve is as accurate as the point solve.
+    #[test]
+    fn inverse_slice_recovers_w(points in any_points()) {
+        let m = model();
+        let (w, t): (Vec<f64>, Vec<f64>) = points.into_iter().unzip();
+        let mut rho = vec![0.0; w.len()];
+        m.density_slice(&w, &t, &mut rho).unwrap();
+        let mut back = vec![0.0; w.len()];
+        m.w_from_density_slice(&rho, &t, &mut back).unwrap();
+        for i in 0..w.len() {
+            prop_assert!((back[i] - w[i]).abs() <= 1e-10, "point {}: w {} → {}", i, w[i], back[i]);
+            let one = m.w_from_density(rho[i], t[i]).unwrap();
+            prop_assert!((back[i] - one).abs() <= 1e-10, "point {}: slice {} vs point {}", i, back[i], one);
+        }
+    }
+}
+
+#[test]
+fn inverse_slice_to_1e_10_on_a_grid() {
+    // Includes the cold, water-rich corner where ρ is flattest in w and the
+    // table guess is poorest, so the careful fallback is exercised too.
+    let m = model();
+    let (mut w, mut t) = (Vec::new(), Vec::new());
+    for it in 0..=120 {
+        for iw in 0..=1000 {
+            t.push(-20.0 + 0.5 * f64::from(it));
+            w.push(f64::from(iw) * 1e-3);
+        }
+    }
+    let mut rho = vec![0.0; w.len()];
+    m.density_slice(&w, &t, &mut rho).unwrap();
+    let mut back = vec![0.0; w.len()];
+    m.w_from_density_slice(&rho, &t, &mut back).unwrap();
+    let worst = back
+        .iter()
+        .zip(&w)
+        .map(|(a, b)| (a - b).abs())
+        .fold(0.0, f64::max);
+    assert!(worst <= 1e-10, "largest error in w: {worst:e}");
+    // Pure components come back exactly, as from the point solve.
+    for (i, &wi) in w.iter().enumerate() {
+        if wi == 0.0 || wi == 1.0 {
+            assert_eq!(back[i], wi, "pure component at {} °C", t[i]);
+        }
+    }
+}
+
+#[test]
+fn pure_component_slopes_allow_the_end_snap() {
+    // The density solve returns a pure component when the density is within
+    // 1e-12 relative (~1e-9 kg/m³) of it; that stays below 1e-10 in w only
+    // if |∂ρ/∂w| > 10 at both ends.
+    let m = model();
+    for it in 0..=600 {
+        let t = -20.0 + 0.1 * f64::from(it);
+        for w in [0.0, 1.0] {
+            let d = m.drho_dw(w, t);
+            assert!(d < -10.0, "∂ρ/∂w = {d} at w = {w}, t = {t}");
+        }
+    }
+}
+
+#[test]
+fn slice_errors_name_the_point() {
+    let m = model();
+    let w = [0.1, 0.2, 0.3, 0.4];
+    let t = [20.0, 20.0, 55.0, 20.0];
+    let mut out = [0.0; 4];
+    match m.density_slice(&w, &t, &mut out) {
+        Err(Error::AtPoint { index: 2, source }) => {
+            assert!(matches!(*source, Error::OutOfRange { .. }), "{source:?}")
+        }
+        other => panic!("expected a range error at point 2, got {other:?}"),
+    }
+    assert_eq!(out, [0.0; 4], "nothing written on a bad input");
+    let msg = m.density_slice(&w, &t, &mut out).unwrap_err().to_string();
+    assert_eq!(
+        msg,
+        "point 2: temperature t = 55 °C is outside the valid range -20 to 40 °C"
+    );
+
+    // The bulk solve reports the first bad point and keeps the ones before.
+    let n = 200;
+    let t = vec![20.0; n];
+    let mut rho = vec![900.0; n];
+    rho[150] = 1200.0;
+    rho[170] = f64::NAN;
+    let mut out = vec![-1.0; n];
+    match m.w_from_density_slice(&rho, &t, &mut out) {
+        Err(Error::AtPoint { index: 150, source }) => {
+            assert!(matches!(*source, Error::Unreachable { .. }), "{source:?}")
+        }
+        other => panic!("expected an unreachable density at point 150, got {other:?}"),
+    }
+    let w900 = m.w_from_density(900.0, 20.0).unwrap();
+    assert!(out[..150].iter().all(|&w| (w - w900).abs() <= 1e-10));
+
+    // Lengths must agree.
+    let mut short = [0.0; 3];
+    assert!(matches!(
+        m.density_slice(&[0.1; 4], &[20.0; 4], &mut short),
+        Err(Error::Invalid(_))
+    ));
+    assert!(matches!(
+        m.w_from_density_slice(&[900.0; 4], &[20.0; 3], &mut [0.0; 4]),
+        Err(Error::Invalid(_))
+    ));
 }

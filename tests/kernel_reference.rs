@@ -313,5 +313,5 @@ fn density_falls_with_mass_fraction_everywhere() {
         }
     }
     let (d, w, t) = worst;
-    assert!(d < -5.0, "∂ρ/∂w = {d} at w = {w}, t = {t} °C");
+    assert!(d < -6.0, "∂ρ/∂w = {d} at w = {w}, t = {t} °C");
 }

@@ -74,6 +74,15 @@ pub trait Mixture: Send + Sync {
         (self.rho(w, t), self.drho_dw(w, t))
     }
 
+    /// Densities at the two ends of the validity range, (ρ(w_min, t),
+    /// ρ(w_max, t)) in kg/m³ (unchecked). Override when closed forms are
+    /// cheaper than two [`Mixture::rho`] calls; the density solve uses them
+    /// for its reachability check and bracket.
+    fn rho_at_ends(&self, t: f64) -> (f64, f64) {
+        let v = self.validity();
+        (self.rho(v.w_min, t), self.rho(v.w_max, t))
+    }
+
     /// A first guess of w for the density solve; `None` lets the solver
     /// start from linear interpolation between the pure components.
     fn guess_w_from_density(&self, _rho: f64, _t: f64) -> Option<f64> {
