@@ -372,6 +372,7 @@ fn exercise_everything(a: f64, b: f64, c: f64, d: f64) -> Result<(), TestCaseErr
         m.density_slice(&xs, &ys, &mut out),
         m.drho_dw_slice(&xs, &ys, &mut out),
         m.w_from_density_slice(&xs, &ys, &mut out),
+        m.abv_slice(&xs, c, &mut out),
     ] {
         if r.is_ok() {
             prop_assert!(out.iter().all(|v| v.is_finite()), "bulk Ok with {out:?}");
@@ -511,16 +512,19 @@ proptest! {
     /// The slice functions give bit for bit the point functions' values,
     /// whichever vector width the CPU runs them at.
     #[test]
-    fn forward_slices_equal_point_values(points in any_points()) {
+    fn forward_slices_equal_point_values(points in any_points(), t_ref in any_t()) {
         let m = model();
         let (w, t): (Vec<f64>, Vec<f64>) = points.into_iter().unzip();
         let mut rho = vec![0.0; w.len()];
         let mut slope = vec![0.0; w.len()];
+        let mut abv = vec![0.0; w.len()];
         m.density_slice(&w, &t, &mut rho).unwrap();
         m.drho_dw_slice(&w, &t, &mut slope).unwrap();
+        m.abv_slice(&w, t_ref, &mut abv).unwrap();
         for i in 0..w.len() {
             prop_assert_eq!(rho[i].to_bits(), m.rho(w[i], t[i]).to_bits(), "density at {}", i);
             prop_assert_eq!(slope[i].to_bits(), m.drho_dw(w[i], t[i]).to_bits(), "slope at {}", i);
+            prop_assert_eq!(abv[i].to_bits(), m.abv_at(w[i], t_ref).unwrap().to_bits(), "% vol at {}", i);
         }
     }
 
@@ -620,6 +624,23 @@ fn slice_errors_name_the_point() {
     }
     let w900 = m.w_from_density(900.0, 20.0).unwrap();
     assert!(out[..150].iter().all(|&w| (w - w900).abs() <= 1e-10));
+
+    // % vol in bulk: a bad mass fraction or reference temperature.
+    let mut out = [0.0; 3];
+    match m.abv_slice(&[0.5, 1.5, 0.2], 20.0, &mut out) {
+        Err(Error::AtPoint { index: 1, .. }) => {}
+        other => panic!("expected a range error at point 1, got {other:?}"),
+    }
+    assert!(matches!(
+        m.abv_slice(&[0.5; 3], 60.0, &mut out),
+        Err(Error::OutOfRange { .. })
+    ));
+    // Longer than the internal buffer of reference temperatures.
+    let w: Vec<f64> = (0..1000).map(|i| f64::from(i) / 999.0).collect();
+    let mut abv = vec![0.0; 1000];
+    m.abv_slice(&w, 20.0, &mut abv).unwrap();
+    assert_eq!(abv[999], 100.0);
+    assert_eq!(abv[500], m.abv_at(w[500], 20.0).unwrap());
 
     // Lengths must agree.
     let mut short = [0.0; 3];

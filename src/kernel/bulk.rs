@@ -70,6 +70,10 @@ pub fn drho_dw_slice<M: Mixture + ?Sized>(
 enum Quantity {
     Density,
     DrhoDw,
+    /// % vol at the temperatures given, with ρ of pure component 1 there.
+    Abv {
+        rho1: f64,
+    },
 }
 
 /// `out[i] = q(w[i], t[i])`, compiled for AVX2 too and dispatched at run
@@ -116,7 +120,44 @@ fn evaluate_any<M: Mixture + ?Sized>(m: &M, q: Quantity, w: &[f64], t: &[f64], o
                 out[i] = m.drho_dw(w[i], t[i]);
             }
         }
+        // The point formula of `composition::abv`, operation for operation.
+        Quantity::Abv { rho1 } => {
+            for i in 0..n {
+                out[i] = (100.0 * (w[i] * (m.rho(w[i], t[i]) / rho1))).clamp(0.0, 100.0);
+            }
+        }
     }
+}
+
+/// `out[i]` = % vol at `t_ref` of mass fraction `w[i]`, all points checked
+/// first.
+pub fn abv_slice<M: Mixture + ?Sized>(m: &M, w: &[f64], t_ref: f64, out: &mut [f64]) -> Result<()> {
+    same_lengths(("w", w.len()), ("output", out.len()), out.len())?;
+    let rho1 = m.pure_density(0, t_ref)?;
+    let v = m.validity();
+    // Branch-free range check first, as in `check_points`.
+    if !w
+        .iter()
+        .fold(true, |ok, &w| ok & (w >= v.w_min) & (w <= v.w_max))
+    {
+        if let Some((index, e)) = w
+            .iter()
+            .enumerate()
+            .find_map(|(i, &w)| m.check_w(w).err().map(|e| (i, e)))
+        {
+            return Err(Error::AtPoint {
+                index,
+                source: Box::new(e),
+            });
+        }
+    }
+    // The evaluation loop takes a temperature per point; a short constant
+    // buffer, reused, keeps it allocation-free for any length.
+    let ts = [t_ref; 256];
+    for (wc, oc) in w.chunks(256).zip(out.chunks_mut(256)) {
+        evaluate(m, Quantity::Abv { rho1 }, wc, &ts[..wc.len()], oc);
+    }
+    Ok(())
 }
 
 /// Mass fraction from density point by point.

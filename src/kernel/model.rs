@@ -286,6 +286,13 @@ pub trait Mixture: Send + Sync {
         bulk::drho_dw_slice(self, w, t, out)
     }
 
+    /// `out[i]` = % vol at `t_ref` °C of mass fraction `w[i]`, as
+    /// [`Mixture::abv_at`] point by point (same values, bit for bit). All
+    /// points are checked first, as in [`Mixture::density_slice`].
+    fn abv_slice(&self, w: &[f64], t_ref: f64, out: &mut [f64]) -> Result<()> {
+        bulk::abv_slice(self, w, t_ref, out)
+    }
+
     /// `out[i]` = mass fraction from density `rho[i]` (kg/m³) measured at
     /// `t[i]` °C, as [`Mixture::w_from_density`] point by point. On the
     /// first bad point it returns [`Error::AtPoint`](super::Error::AtPoint);
