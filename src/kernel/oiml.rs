@@ -153,9 +153,10 @@ const TAB_NS: usize = 257;
 struct InverseTable {
     /// ρ(1, t) = Σ_k e_k (t−20)^k: e₀ = Σ A, e_k = B_k + Σ_j C_{k,j}.
     ethanol: [f64; 7],
-    /// Per node (t_i, s_j), at index 2(i·NS + j): w and h·∂w/∂s, with
-    /// h = 1/(NS − 1) the s spacing.
-    nodes: Vec<f64>,
+    /// Row i (t_i) holds, for node j (s_j), w at 2j and h·∂w/∂s at 2j + 1,
+    /// with h = 1/(NS − 1) the s spacing. Fixed-size rows let the compiler
+    /// drop the bounds checks within a row.
+    rows: Vec<[f64; 2 * TAB_NS]>,
 }
 
 fn rho_ethanol_coefficients() -> [f64; 7] {
@@ -178,8 +179,8 @@ fn inverse_table() -> &'static InverseTable {
 
 fn build_inverse_table() -> InverseTable {
     let h = 1.0 / (TAB_NS - 1) as f64;
-    let mut nodes = Vec::with_capacity(2 * TAB_NT * TAB_NS);
-    for i in 0..TAB_NT {
+    let mut rows = vec![[0.0; 2 * TAB_NS]; TAB_NT];
+    for (i, row) in rows.iter_mut().enumerate() {
         let t = -20.0 + 60.0 * i as f64 / (TAB_NT - 1) as f64;
         let (r0, r1) = (EthanolWater::rho_w(0.0, t), EthanolWater::rho_w(1.0, t));
         let f = |w: f64| {
@@ -196,14 +197,14 @@ fn build_inverse_table() -> InverseTable {
             let w = solve::solve_increasing(f, -target, 0.0, 1.0, guess, "inverse table")
                 .unwrap_or(guess);
             let slope = h * (r1 - r0) / EthanolWater::rho_dw_impl(w, t).1;
-            nodes.push(w);
-            nodes.push(slope);
+            row[2 * j] = w;
+            row[2 * j + 1] = slope;
             guess = w + slope;
         }
     }
     InverseTable {
         ethanol: rho_ethanol_coefficients(),
-        nodes,
+        rows,
     }
 }
 
@@ -233,8 +234,7 @@ impl InverseTable {
             f3 - f2,
         ];
         let row = |i: usize| {
-            let k = 2 * (i * TAB_NS + j);
-            let n = &self.nodes[k..k + 4];
+            let n = &self.rows[i][2 * j..2 * j + 4];
             hs[0] * n[0] + hs[1] * n[1] + hs[2] * n[2] + hs[3] * n[3]
         };
         // Catmull–Rom in t over rows i−1 … i+2, one-sided at the edges.
