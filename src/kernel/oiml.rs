@@ -305,6 +305,7 @@ impl EthanolWater {
     #[inline(always)]
     fn w_from_density_chunks_any(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
         let tab = inverse_table();
+        let v = self.validity();
         let chunks = rho
             .chunks(LANES)
             .zip(t.chunks(LANES))
@@ -320,7 +321,7 @@ impl EthanolWater {
             let n = rc.len().min(tc.len());
             for j in 0..n {
                 let (r, t) = (rc[j], tc[j]);
-                let valid = (-20.0..=40.0).contains(&t) & r.is_finite();
+                let valid = (t >= v.t_min) & (t <= v.t_max) & r.is_finite();
                 let t = if valid { t } else { 20.0 };
                 let d = t - 20.0;
                 let (r0, r1) = (rho_water(d), tab.rho_ethanol(d));
@@ -506,14 +507,15 @@ impl Mixture for EthanolWater {
         (rho_water(d), inverse_table().rho_ethanol(d))
     }
 
-    /// Chunked: see [`EthanolWater`]'s bulk solve notes in the source; the
-    /// results are within 1e-10 of the root like the point solve's.
+    /// Chunked and vectorised (notes at `ACCEPT_STEP` in this file); every
+    /// result is within 1e-10 of the root, like the point solve's, and bad
+    /// points get the point solve's errors.
     fn w_from_density_slice(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
         self.w_from_density_chunks(rho, t, out)
     }
 
-    /// From the precomputed table (see the module notes): typically within
-    /// 1e-7 of the root, so Newton needs one or two steps.
+    /// From the precomputed table (notes at `TAB_NT` in this file): close
+    /// enough that Newton usually needs two steps.
     #[inline]
     fn guess_w_from_density(&self, rho: f64, t: f64) -> Option<f64> {
         let tab = inverse_table();
