@@ -372,8 +372,9 @@ fn density_of_mass_fraction_arrays_matches_the_kernel() {
 
 #[test]
 fn long_density_arrays_agree_with_the_one_point_solve() {
-    // Long arrays at one temperature go through a prepared inverse; it
-    // must agree with the kernel's one-point solve to its tolerance.
+    // Density arrays are solved in one slice call (the reference
+    // equation's vectorised solve); it must agree with the kernel's
+    // one-point solve to its tolerance.
     let h = host();
     let k = kernel();
     eval(

@@ -19,11 +19,21 @@ pub enum Composition {
     /// Mole fraction of component 1, 0–1.
     X(f64),
     /// % vol of component 1 referred to `t_ref` °C, 0–100.
-    Abv { abv: f64, t_ref: f64 },
+    Abv {
+        /// % vol, 0–100.
+        abv: f64,
+        /// Reference temperature of the % vol, °C (20 in most of the world).
+        t_ref: f64,
+    },
     /// US proof (twice the % vol at 60 °F), 0–200.
     Proof(f64),
     /// A density in kg/m³ measured at `t` °C.
-    Density { rho: f64, t: f64 },
+    Density {
+        /// Measured density, kg/m³.
+        rho: f64,
+        /// Temperature of the measurement, °C.
+        t: f64,
+    },
 }
 
 impl Composition {
@@ -75,14 +85,21 @@ pub fn dx_dw(w: f64, m1: f64, m2: f64) -> f64 {
     1.0 / (m1 * m2 * s * s)
 }
 
-/// % vol at `t_ref` of mass fraction `w` (both already checked).
+/// % vol at `t_ref` of mass fraction `w` (both checked against the model's
+/// validity range).
 pub fn abv<M: Mixture + ?Sized>(m: &M, w: f64, t_ref: f64) -> Result<f64> {
+    let w = m.check_w(w)?;
     let rho1 = m.pure_density(0, t_ref)?;
-    Ok(100.0 * w * m.rho(w, t_ref) / rho1)
+    // Rounding in a high-degree density polynomial jitters ρ by ~1e-13
+    // relative just below w = 1, which can put the ratio a hair above 100 %
+    // vol; clamp so that every computed % vol converts back without a range
+    // error.
+    Ok((100.0 * (w * (m.rho(w, t_ref) / rho1))).clamp(0.0, 100.0))
 }
 
-/// d(% vol)/dw at `t_ref`.
+/// d(% vol)/dw at `t_ref` (both checked).
 pub fn dabv_dw<M: Mixture + ?Sized>(m: &M, w: f64, t_ref: f64) -> Result<f64> {
+    let w = m.check_w(w)?;
     let rho1 = m.pure_density(0, t_ref)?;
     let (r, dr) = m.rho_dw(w, t_ref);
     Ok(100.0 * (r + w * dr) / rho1)
@@ -127,8 +144,9 @@ pub fn to_w<M: Mixture + ?Sized>(m: &M, c: Composition) -> Result<f64> {
     m.check_w(w)
 }
 
-/// Every basis for a checked mass fraction.
+/// Every basis for mass fraction `w` (checked).
 pub fn strength<M: Mixture + ?Sized>(m: &M, w: f64) -> Result<Strength> {
+    let w = m.check_w(w)?;
     let [a, b] = m.components();
     Ok(Strength {
         w,

@@ -8,15 +8,29 @@ use thiserror::Error;
 pub enum Error {
     /// A NaN or infinite input.
     #[error("{quantity} must be a finite number, got {value}")]
-    NotFinite { quantity: &'static str, value: f64 },
+    NotFinite {
+        /// What the value stands for, e.g. `"density"`.
+        quantity: &'static str,
+        /// The offending value.
+        value: f64,
+    },
 
     /// A finite input outside the range where the model or formula holds.
-    #[error("{quantity} = {value} {unit} is outside the valid range {min} to {max} {unit}")]
+    #[error(
+        "{quantity} = {value}{} is outside the valid range {min} to {max}{}",
+        unit_suffix(unit),
+        unit_suffix(unit)
+    )]
     OutOfRange {
+        /// What the value stands for, e.g. `"temperature t"`.
         quantity: &'static str,
+        /// The offending value.
         value: f64,
+        /// Lowest valid value.
         min: f64,
+        /// Highest valid value.
         max: f64,
+        /// Unit of all three numbers; empty for dimensionless quantities.
         unit: &'static str,
     },
 
@@ -26,10 +40,15 @@ pub enum Error {
          at that temperature it spans {min:.4} to {max:.4} kg/m³"
     )]
     Unreachable {
+        /// Name of the model, as [`crate::kernel::Mixture::name`] gives it.
         model: String,
+        /// The measured density, kg/m³.
         density: f64,
+        /// The temperature of the measurement, °C.
         t: f64,
+        /// Lowest density the model reaches at `t`, kg/m³.
         min: f64,
+        /// Highest density the model reaches at `t`, kg/m³.
         max: f64,
     },
 
@@ -37,9 +56,21 @@ pub enum Error {
     /// pathological model; never returned silently).
     #[error("{what} did not converge after {iterations} iterations (residual {residual:e})")]
     NoConvergence {
+        /// Which solve, e.g. `"density solve"`.
         what: &'static str,
+        /// Iterations spent.
         iterations: usize,
+        /// Remaining residual of the equation being solved.
         residual: f64,
+    },
+
+    /// A bad point in a slice (bulk) call: which one, and what is wrong.
+    #[error("point {index}: {source}")]
+    AtPoint {
+        /// Index of the first bad point in the input slices.
+        index: usize,
+        /// What is wrong with it.
+        source: Box<Error>,
     },
 
     /// Any other invalid argument, described in words.
@@ -152,6 +183,16 @@ impl From<std::io::Error> for Error {
             kind: e.kind(),
             message: e.to_string(),
         }
+    }
+}
+
+/// " °C" for "°C", nothing for a dimensionless quantity, so that messages
+/// read "w = 1.5 is outside …" rather than leaving a stray space.
+fn unit_suffix(unit: &str) -> String {
+    if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" {unit}")
     }
 }
 

@@ -20,9 +20,15 @@ pub const GLASS_ALPHA: f64 = 25e-6;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum HydrometerScale {
     /// % vol, calibrated at 20 °C, with the glass's expansion coefficient.
-    AbvAt20 { alpha: f64 },
+    AbvAt20 {
+        /// Cubic expansion coefficient of the glass, 1/K.
+        alpha: f64,
+    },
     /// US proof, calibrated at 60 °F, with the glass's expansion coefficient.
-    ProofAt60F { alpha: f64 },
+    ProofAt60F {
+        /// Cubic expansion coefficient of the glass, 1/K.
+        alpha: f64,
+    },
 }
 
 impl HydrometerScale {

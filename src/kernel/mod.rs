@@ -8,6 +8,7 @@ pub mod fit;
 pub mod hydrometer;
 pub mod model;
 pub mod oiml;
+pub mod prepared;
 pub mod process;
 pub mod sheet;
 pub mod solve;

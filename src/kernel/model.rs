@@ -5,6 +5,7 @@
 //! method, so the reference equation and a mixture fitted from user data get
 //! all of them.
 
+use super::bulk;
 use super::composition::{self, Composition, Strength};
 use super::error::{in_range, Result};
 use super::hydrometer::{self, HydrometerScale};
@@ -73,6 +74,15 @@ pub trait Mixture: Send + Sync {
         (self.rho(w, t), self.drho_dw(w, t))
     }
 
+    /// Densities at the two ends of the validity range, (ρ(w_min, t),
+    /// ρ(w_max, t)) in kg/m³ (unchecked). Override when closed forms are
+    /// cheaper than two [`Mixture::rho`] calls; the density solve uses them
+    /// for its reachability check and bracket.
+    fn rho_at_ends(&self, t: f64) -> (f64, f64) {
+        let v = self.validity();
+        (self.rho(v.w_min, t), self.rho(v.w_max, t))
+    }
+
     /// A first guess of w for the density solve; `None` lets the solver
     /// start from linear interpolation between the pure components.
     fn guess_w_from_density(&self, _rho: f64, _t: f64) -> Option<f64> {
@@ -107,12 +117,20 @@ pub trait Mixture: Send + Sync {
     /// Density of pure component 1 (`i = 0`) or 2 (`i = 1`) at `t`, kg/m³.
     fn pure_density(&self, i: usize, t: f64) -> Result<f64> {
         let v = self.validity();
-        let w = if i == 0 { v.w_max } else { v.w_min };
+        let w = match i {
+            0 => v.w_max,
+            1 => v.w_min,
+            _ => {
+                return Err(super::Error::Invalid(format!(
+                    "component index {i} does not exist: a binary mixture has components 0 and 1"
+                )))
+            }
+        };
         if (i == 0 && v.w_max < 1.0) || (i == 1 && v.w_min > 0.0) {
             return Err(super::Error::Invalid(format!(
                 "{} does not cover pure {}",
                 self.name(),
-                self.components()[i.min(1)].name
+                self.components()[i].name
             )));
         }
         self.density(w, t)
@@ -238,14 +256,50 @@ pub trait Mixture: Send + Sync {
     }
 
     /// Volume at `t_to` of a liquid of mass fraction `w` that measures
-    /// `volume` at `t_from` (mass conserved). Same unit in and out.
+    /// `volume` (finite, not negative) at `t_from` (mass conserved). Same
+    /// unit in and out.
     fn volume_at(&self, volume: f64, w: f64, t_from: f64, t_to: f64) -> Result<f64> {
-        Ok(volume * self.volume_correction_factor(w, t_from, t_to)?)
+        let volume = in_range("volume", volume, 0.0, f64::MAX, "")?;
+        let v = volume * self.volume_correction_factor(w, t_from, t_to)?;
+        // A volume near f64::MAX can overflow on expansion.
+        super::error::finite("volume after correction", v)
     }
 
     /// The factor V(t_to)/V(t_from) = ρ(t_from)/ρ(t_to).
     fn volume_correction_factor(&self, w: f64, t_from: f64, t_to: f64) -> Result<f64> {
         let w = self.check_w(w)?;
         Ok(self.rho(w, self.check_t(t_from)?) / self.rho(w, self.check_t(t_to)?))
+    }
+
+    // ---- bulk (slice) versions ------------------------------------------
+
+    /// `out[i] = ρ(w[i], t[i])` in kg/m³ for equally long slices. All points
+    /// are checked first; the first bad one is reported as
+    /// [`Error::AtPoint`](super::Error::AtPoint) and `out` is left untouched.
+    fn density_slice(&self, w: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::density_slice(self, w, t, out)
+    }
+
+    /// `out[i] = ∂ρ/∂w(w[i], t[i])` in kg/m³ per unit mass fraction, checked
+    /// like [`Mixture::density_slice`].
+    fn drho_dw_slice(&self, w: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::drho_dw_slice(self, w, t, out)
+    }
+
+    /// `out[i]` = % vol at `t_ref` °C of mass fraction `w[i]`, as
+    /// [`Mixture::abv_at`] point by point (same values, bit for bit). All
+    /// points are checked first, as in [`Mixture::density_slice`].
+    fn abv_slice(&self, w: &[f64], t_ref: f64, out: &mut [f64]) -> Result<()> {
+        bulk::abv_slice(self, w, t_ref, out)
+    }
+
+    /// `out[i]` = mass fraction from density `rho[i]` (kg/m³) measured at
+    /// `t[i]` °C, as [`Mixture::w_from_density`] point by point (to the
+    /// solver's tolerance: a long column at one temperature goes through a
+    /// prepared inverse, see [`bulk::w_from_density_slice`]). On the first
+    /// bad point it returns [`Error::AtPoint`](super::Error::AtPoint);
+    /// `out` then holds the points before it.
+    fn w_from_density_slice(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::w_from_density_slice(self, rho, t, out)
     }
 }

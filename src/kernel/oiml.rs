@@ -9,7 +9,12 @@
 //! with m = (11, 10, 9, 4, 2). The derivatives are exact (the polynomial
 //! differentiated term by term).
 
+use std::sync::OnceLock;
+
+use super::bulk;
+use super::error::{Error, Result};
 use super::model::{Component, Mixture, Validity};
+use super::solve;
 
 /// A_1 … A_12, kg/m³.
 const A: [f64; 12] = [
@@ -50,6 +55,8 @@ const C1: [f64; 11] = [
     -7.420201433430137e3,
     1.285617841998974e3,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C2: [f64; 10] = [
     -1.193013005057010e-2,
     2.517399633803461e-1,
@@ -62,6 +69,8 @@ const C2: [f64; 10] = [
     -4.414153236817392e1,
     7.442971530188783,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C3: [f64; 9] = [
     -6.802995733503803e-4,
     1.876837790289664e-2,
@@ -73,6 +82,8 @@ const C3: [f64; 9] = [
     2.458043105903461,
     -5.411227621436812e-1,
 ];
+// Digits as printed in the standard, trailing zeros included.
+#[allow(clippy::excessive_precision)]
 const C4: [f64; 4] = [
     4.075376675622027e-6,
     -8.763058573471110e-6,
@@ -110,6 +121,259 @@ fn poly0<const N: usize>(a: &[f64; N], w: f64) -> (f64, f64) {
         p = p * w + ak;
     }
     (p, dp)
+}
+
+/// Density of pure water ρ(0, t): only the A₁ and B terms survive.
+#[inline(always)]
+fn rho_water(d: f64) -> f64 {
+    let mut bt = 0.0;
+    for &bk in B.iter().rev() {
+        bt = bt * d + bk;
+    }
+    A[0] + d * bt
+}
+
+// ---- inverse table ----------------------------------------------------------
+//
+// The density solve needs a first guess of w. Over the validity range
+// ρ(·, t) falls strictly from ρ(0, t) to ρ(1, t) (see the monotonicity test),
+// so s = (ρ(0, t) − ρ)/(ρ(0, t) − ρ(1, t)) runs over [0, 1] and w(s, t) is a
+// smooth map of a rectangle. We tabulate w and ∂w/∂s on a grid and
+// interpolate cubically in both directions: Hermite in s (with the stored
+// slopes), Catmull–Rom in t (slopes from the neighbouring rows; linear
+// interpolation in t left a tenth of the cold, water-rich points too far
+// off for two Newton steps). Newton then polishes the guess. The table is
+// built once, on first use (a few milliseconds), with the bracketed solver.
+
+/// Grid rows in t over −20…40 °C, 1 K apart.
+const TAB_NT: usize = 61;
+/// Grid nodes in s over 0…1.
+const TAB_NS: usize = 257;
+
+struct InverseTable {
+    /// ρ(1, t) = Σ_k e_k (t−20)^k: e₀ = Σ A, e_k = B_k + Σ_j C_{k,j}.
+    ethanol: [f64; 7],
+    /// Row i (t_i) holds, for node j (s_j), w at 2j and h·∂w/∂s at 2j + 1,
+    /// with h = 1/(NS − 1) the s spacing. Fixed-size rows let the compiler
+    /// drop the bounds checks within a row.
+    rows: Vec<[f64; 2 * TAB_NS]>,
+}
+
+fn rho_ethanol_coefficients() -> [f64; 7] {
+    let sum = |c: &[f64]| c.iter().sum::<f64>();
+    [
+        sum(&A),
+        B[0] + sum(&C1),
+        B[1] + sum(&C2),
+        B[2] + sum(&C3),
+        B[3] + sum(&C4),
+        B[4] + sum(&C5),
+        B[5],
+    ]
+}
+
+fn inverse_table() -> &'static InverseTable {
+    static TABLE: OnceLock<InverseTable> = OnceLock::new();
+    TABLE.get_or_init(build_inverse_table)
+}
+
+fn build_inverse_table() -> InverseTable {
+    let h = 1.0 / (TAB_NS - 1) as f64;
+    let mut rows = vec![[0.0; 2 * TAB_NS]; TAB_NT];
+    for (i, row) in rows.iter_mut().enumerate() {
+        let t = -20.0 + 60.0 * i as f64 / (TAB_NT - 1) as f64;
+        let (r0, r1) = (EthanolWater::rho_w(0.0, t), EthanolWater::rho_w(1.0, t));
+        let f = |w: f64| {
+            let (r, dr) = EthanolWater::rho_dw_impl(w, t);
+            (-r, -dr)
+        };
+        // Along a row w rises with s: start each solve from the previous
+        // node extended along its slope.
+        let mut guess = 0.0;
+        for j in 0..TAB_NS {
+            let target = r0 - j as f64 * h * (r0 - r1);
+            // Cannot fail: the target lies between the ends, where the
+            // polynomial is finite.
+            let w = solve::solve_increasing(f, -target, 0.0, 1.0, guess, "inverse table")
+                .unwrap_or(guess);
+            let slope = h * (r1 - r0) / EthanolWater::rho_dw_impl(w, t).1;
+            row[2 * j] = w;
+            row[2 * j + 1] = slope;
+            guess = w + slope;
+        }
+    }
+    InverseTable {
+        ethanol: rho_ethanol_coefficients(),
+        rows,
+    }
+}
+
+impl InverseTable {
+    #[inline(always)]
+    fn rho_ethanol(&self, d: f64) -> f64 {
+        let e = &self.ethanol;
+        e[0] + d * (e[1] + d * (e[2] + d * (e[3] + d * (e[4] + d * (e[5] + d * e[6])))))
+    }
+
+    /// w at normalised density s (0–1) and temperature t (°C, in range).
+    #[inline(always)]
+    fn w_at(&self, s: f64, t: f64) -> f64 {
+        let last_row = (TAB_NT - 1) as f64;
+        let u = ((t + 20.0) * (last_row / 60.0)).clamp(0.0, last_row);
+        let i = (u as usize).min(TAB_NT - 2);
+        let ft = u - i as f64;
+        let v = (s * (TAB_NS - 1) as f64).clamp(0.0, (TAB_NS - 1) as f64);
+        let j = (v as usize).min(TAB_NS - 2);
+        let f = v - j as f64;
+        // Hermite in s within each row.
+        let (f2, f3) = (f * f, f * f * f);
+        let hs = [
+            2.0 * f3 - 3.0 * f2 + 1.0,
+            f3 - 2.0 * f2 + f,
+            -2.0 * f3 + 3.0 * f2,
+            f3 - f2,
+        ];
+        let row = |i: usize| {
+            let n = &self.rows[i][2 * j..2 * j + 4];
+            hs[0] * n[0] + hs[1] * n[1] + hs[2] * n[2] + hs[3] * n[3]
+        };
+        // Catmull–Rom in t over rows i−1 … i+2, one-sided at the edges.
+        let (im, ip) = (i.saturating_sub(1), (i + 2).min(TAB_NT - 1));
+        let (p0, p1, p2, p3) = (row(im), row(i), row(i + 1), row(ip));
+        let m1 = (p2 - p0) / (i + 1 - im) as f64;
+        let m2 = (p3 - p1) / (ip - i) as f64;
+        let (g2, g3) = (ft * ft, ft * ft * ft);
+        (2.0 * g3 - 3.0 * g2 + 1.0) * p1
+            + (g3 - 2.0 * g2 + ft) * m1
+            + (-2.0 * g3 + 3.0 * g2) * p2
+            + (g3 - g2) * m2
+    }
+}
+
+// ---- bulk density solve -----------------------------------------------------
+
+/// Newton step (in w) below which the bulk solve accepts a point: the
+/// point solve's kind of rule (stop once the step is below a tolerance),
+/// with the step applied. Why that is safe on its own, whatever happened
+/// before: over the validity range 6.03 ≤ |∂ρ/∂w| ≤ 319 and |∂²ρ/∂w²| ≤ 1317
+/// (scanned on a 1e-4 × 0.1 K grid). A step below 1e-11 means a residual
+/// below 3.2e-9 kg/m³, so the point it starts from is within 5.3e-10 of the
+/// root (mean value theorem), and the Newton step from there leaves at most
+/// 1317/(2·6.03) × (5.3e-10)² ≈ 3e-17 — below the rounding floor of ρ itself
+/// (≤ ~4e-10 kg/m³, ≤ 7e-11 in w).
+const ACCEPT_STEP: f64 = 1e-11;
+
+/// Extra Newton steps for the few points (cold, water-rich, where ρ is
+/// flattest in w) that two steps from the table guess do not settle.
+const STRAGGLER_STEPS: usize = 4;
+
+/// Points solved together; the Newton passes run over whole chunks so the
+/// compiler can vectorise the density evaluations.
+const LANES: usize = 64;
+
+impl EthanolWater {
+    /// The bulk density solve (see [`Mixture::w_from_density_slice`]):
+    /// guess from the table, two Newton passes over a chunk of points at
+    /// once (a few more for the points that need them), then each point is
+    /// accepted by its last step (see `ACCEPT_STEP`) or
+    /// handed to the bracketed point solve, which also produces the error
+    /// for an invalid or unreachable point.
+    fn w_from_density_chunks(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        bulk::same_lengths(("density", rho.len()), ("t", t.len()), out.len())?;
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, checked just above.
+            return unsafe { self.w_from_density_chunks_avx2(rho, t, out) };
+        }
+        self.w_from_density_chunks_any(rho, t, out)
+    }
+
+    /// The same code compiled for AVX2 (4 lanes instead of SSE2's 2). No FMA
+    /// is enabled and Rust never fuses a multiply and an add on its own, so
+    /// the results are bit for bit those of the baseline build.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn w_from_density_chunks_avx2(
+        &self,
+        rho: &[f64],
+        t: &[f64],
+        out: &mut [f64],
+    ) -> Result<()> {
+        self.w_from_density_chunks_any(rho, t, out)
+    }
+
+    #[inline(always)]
+    fn w_from_density_chunks_any(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        let tab = inverse_table();
+        let v = self.validity();
+        let chunks = rho
+            .chunks(LANES)
+            .zip(t.chunks(LANES))
+            .zip(out.chunks_mut(LANES));
+        for (c, ((rc, tc), oc)) in chunks.enumerate() {
+            // Pass 1, vectorisable: which points take the fast path, and
+            // where each sits in the table. The others get harmless
+            // stand-in values and go the careful way at the end.
+            let mut tt = [20.0; LANES];
+            let mut target = [998.0; LANES];
+            let mut sv = [0.5; LANES];
+            let mut fast = [false; LANES];
+            let n = rc.len().min(tc.len());
+            for j in 0..n {
+                let (r, t) = (rc[j], tc[j]);
+                let valid = (t >= v.t_min) & (t <= v.t_max) & r.is_finite();
+                let t = if valid { t } else { 20.0 };
+                let d = t - 20.0;
+                let (r0, r1) = (rho_water(d), tab.rho_ethanol(d));
+                let s = (r0 - r) / (r0 - r1);
+                // The ends (within the point solve's snap) and anything
+                // beyond them go the careful way.
+                let snap = solve::END_SNAP * r0;
+                let ok = valid & (r0 - r > snap) & (r - r1 > snap);
+                fast[j] = ok;
+                tt[j] = if ok { t } else { 20.0 };
+                target[j] = if ok { r } else { 998.0 };
+                sv[j] = if ok { s } else { 0.5 };
+            }
+            // Pass 2: first guesses from the table (gathers).
+            let mut w = [0.5; LANES];
+            for j in 0..LANES {
+                w[j] = tab.w_at(sv[j], tt[j]);
+            }
+            let mut step = [0.0; LANES];
+            for _ in 0..2 {
+                for j in 0..LANES {
+                    let (r, dr) = Self::rho_dw_impl(w[j], tt[j]);
+                    step[j] = (r - target[j]) / dr;
+                    w[j] = (w[j] - step[j]).clamp(0.0, 1.0);
+                }
+            }
+            for j in 0..n {
+                if fast[j] && step[j].abs() > ACCEPT_STEP {
+                    for _ in 0..STRAGGLER_STEPS {
+                        let (r, dr) = Self::rho_dw_impl(w[j], tt[j]);
+                        step[j] = (r - target[j]) / dr;
+                        w[j] = (w[j] - step[j]).clamp(0.0, 1.0);
+                        if step[j].abs() <= ACCEPT_STEP {
+                            break;
+                        }
+                    }
+                }
+            }
+            for j in 0..n {
+                oc[j] = if fast[j] && step[j].abs() <= ACCEPT_STEP {
+                    w[j]
+                } else {
+                    self.w_from_density(rc[j], tc[j])
+                        .map_err(|e| Error::AtPoint {
+                            index: c * LANES + j,
+                            source: Box::new(e),
+                        })?
+                };
+            }
+        }
+        Ok(())
+    }
 }
 
 /// The international alcoholometric formula for ethanol (component 1) in
@@ -160,7 +424,24 @@ impl EthanolWater {
         (a + bt + q, da + dq_dw, dbt + dq_dd)
     }
 
-    #[inline]
+    /// ρ(w, t) alone (unchecked).
+    #[inline(always)]
+    fn rho_w(w: f64, t: f64) -> f64 {
+        let d = t - 20.0;
+        let a = poly0(&A, w).0;
+        let mut bt = 0.0;
+        for &bk in B.iter().rev() {
+            bt = bt * d + bk;
+        }
+        let p1 = poly_w(&C1, w).0;
+        let p2 = poly_w(&C2, w).0;
+        let p3 = poly_w(&C3, w).0;
+        let p4 = poly_w(&C4, w).0;
+        let p5 = poly_w(&C5, w).0;
+        a + d * bt + ((((p5 * d + p4) * d + p3) * d + p2) * d + p1) * d
+    }
+
+    #[inline(always)]
     fn rho_dw_impl(w: f64, t: f64) -> (f64, f64) {
         let d = t - 20.0;
         let (a, da) = poly0(&A, w);
@@ -197,23 +478,13 @@ impl Mixture for EthanolWater {
         }
     }
 
-    #[inline]
+    // Always inlined so that bulk loops (compiled for AVX2 as well) vectorise.
+    #[inline(always)]
     fn rho(&self, w: f64, t: f64) -> f64 {
-        let d = t - 20.0;
-        let a = poly0(&A, w).0;
-        let mut bt = 0.0;
-        for &bk in B.iter().rev() {
-            bt = bt * d + bk;
-        }
-        let p1 = poly_w(&C1, w).0;
-        let p2 = poly_w(&C2, w).0;
-        let p3 = poly_w(&C3, w).0;
-        let p4 = poly_w(&C4, w).0;
-        let p5 = poly_w(&C5, w).0;
-        a + d * bt + ((((p5 * d + p4) * d + p3) * d + p2) * d + p1) * d
+        Self::rho_w(w, t)
     }
 
-    #[inline]
+    #[inline(always)]
     fn drho_dw(&self, w: f64, t: f64) -> f64 {
         Self::rho_dw_impl(w, t).1
     }
@@ -226,5 +497,34 @@ impl Mixture for EthanolWater {
     #[inline]
     fn rho_dw(&self, w: f64, t: f64) -> (f64, f64) {
         Self::rho_dw_impl(w, t)
+    }
+
+    /// Closed forms: ρ(0, t) needs only A₁ and the B terms, ρ(1, t) a
+    /// degree-6 polynomial in t with precomputed coefficient sums.
+    #[inline]
+    fn rho_at_ends(&self, t: f64) -> (f64, f64) {
+        let d = t - 20.0;
+        (rho_water(d), inverse_table().rho_ethanol(d))
+    }
+
+    /// Chunked and vectorised (notes at `ACCEPT_STEP` in this file); every
+    /// result is within 1e-10 of the root, like the point solve's, and bad
+    /// points get the point solve's errors.
+    fn w_from_density_slice(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
+        self.w_from_density_chunks(rho, t, out)
+    }
+
+    /// From the precomputed table (notes at `TAB_NT` in this file): close
+    /// enough that Newton usually needs two steps.
+    #[inline]
+    fn guess_w_from_density(&self, rho: f64, t: f64) -> Option<f64> {
+        let tab = inverse_table();
+        let d = t - 20.0;
+        let (r0, r1) = (rho_water(d), tab.rho_ethanol(d));
+        let s = (r0 - rho) / (r0 - r1);
+        if !(s.is_finite() && t.is_finite()) {
+            return None;
+        }
+        Some(tab.w_at(s.clamp(0.0, 1.0), t))
     }
 }

@@ -9,6 +9,9 @@ use super::model::Mixture;
 /// Tolerance on w at which the solves stop.
 pub const W_TOL: f64 = 1e-12;
 const MAX_ITER: usize = 100;
+/// Relative distance from a pure component's density within which the
+/// density solve returns that pure component exactly.
+pub const END_SNAP: f64 = 1e-12;
 
 /// Solves `f(w) = target` for `w` in `[lo, hi]`, where `f` returns the value
 /// and derivative and is increasing. `target` must lie between `f(lo)` and
@@ -21,9 +24,37 @@ pub fn solve_increasing(
     guess: f64,
     what: &'static str,
 ) -> Result<f64> {
+    if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+        return Err(Error::Invalid(format!(
+            "{what}: the bracket [{lo}, {hi}] is not a finite interval"
+        )));
+    }
+    let target = finite(what, target)?;
+    let (fa, _) = f(lo);
+    let (fb, _) = f(hi);
+    solve_in_bracket(f, target, lo, hi, fa, fb, guess, what)
+}
+
+/// [`solve_increasing`] with `f(lo)` and `f(hi)` already known (and the
+/// bracket and target already checked), so callers that computed them for
+/// their own checks do not pay for them twice.
+#[allow(clippy::too_many_arguments)]
+fn solve_in_bracket(
+    f: impl Fn(f64) -> (f64, f64),
+    target: f64,
+    lo: f64,
+    hi: f64,
+    fa: f64,
+    fb: f64,
+    guess: f64,
+    what: &'static str,
+) -> Result<f64> {
     let (mut a, mut b) = (lo, hi);
-    let (fa, _) = f(a);
-    let (fb, _) = f(b);
+    if !(fa.is_finite() && fb.is_finite()) {
+        return Err(Error::Invalid(format!(
+            "{what}: the function is not finite at the ends of [{lo}, {hi}]"
+        )));
+    }
     if target <= fa {
         return Ok(a);
     }
@@ -39,6 +70,11 @@ pub fn solve_increasing(
     for _ in 0..MAX_ITER {
         let (fw, dfw) = f(w);
         let g = fw - target;
+        if g.is_nan() {
+            return Err(Error::Invalid(format!(
+                "{what}: the function is NaN at {w}"
+            )));
+        }
         if g == 0.0 {
             return Ok(w);
         }
@@ -80,8 +116,7 @@ pub fn w_from_density<M: Mixture + ?Sized>(m: &M, rho: f64, t: f64) -> Result<f6
     let rho = finite("density", rho)?;
     let t = m.check_t(t)?;
     let v = m.validity();
-    let r_lo_w = m.rho(v.w_min, t);
-    let r_hi_w = m.rho(v.w_max, t);
+    let (r_lo_w, r_hi_w) = m.rho_at_ends(t);
     let (min, max) = (r_lo_w.min(r_hi_w), r_lo_w.max(r_hi_w));
     // Allow a rounding margin at the ends so that ρ(pure) itself round-trips.
     let margin = 1e-9 * max;
@@ -93,6 +128,17 @@ pub fn w_from_density<M: Mixture + ?Sized>(m: &M, rho: f64, t: f64) -> Result<f6
             min,
             max,
         });
+    }
+    // A density equal to a pure component's up to rounding (closed forms
+    // for the ends, as `rho_at_ends` may use, differ from the full
+    // polynomial in the last bits) is that pure component, exactly. The
+    // snap is ~1e-9 kg/m³, i.e. < 1e-10 in w for any |∂ρ/∂w| > 10.
+    let snap = END_SNAP * max;
+    if (rho - r_lo_w).abs() <= snap {
+        return Ok(v.w_min);
+    }
+    if (rho - r_hi_w).abs() <= snap {
+        return Ok(v.w_max);
     }
     let f = |w: f64| {
         let (r, dr) = m.rho_dw(w, t);
@@ -106,5 +152,14 @@ pub fn w_from_density<M: Mixture + ?Sized>(m: &M, rho: f64, t: f64) -> Result<f6
             v.w_min + (rho - r_lo_w) / span * (v.w_max - v.w_min)
         }
     });
-    solve_increasing(f, -rho, v.w_min, v.w_max, guess, "density solve")
+    solve_in_bracket(
+        f,
+        -rho,
+        v.w_min,
+        v.w_max,
+        -r_lo_w,
+        -r_hi_w,
+        guess,
+        "density solve",
+    )
 }

@@ -12,10 +12,15 @@ use super::model::{Mixture, T_PROOF_C, T_REF_C};
 /// Standard uncertainties of a [`Strength`], each in its basis's unit.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct StrengthUncertainty {
+    /// u(w), mass fraction.
     pub w: f64,
+    /// u(% mass), % mass.
     pub abm: f64,
+    /// u(x), mole fraction.
     pub x: f64,
+    /// u(% vol at 20 °C), % vol.
     pub abv: f64,
+    /// u(US proof), proof.
     pub proof: f64,
 }
 

@@ -11,16 +11,18 @@ pub fn mean_molar_mass(w: f64, m1: f64, m2: f64) -> f64 {
     1.0 / (w / m1 + (1.0 - w) / m2)
 }
 
-/// V_m = 1000 M̄/ρ, cm³/mol (inputs checked).
+/// V_m = 1000 M̄/ρ, cm³/mol (`w` and `t` checked).
 pub fn molar_volume<M: Mixture + ?Sized>(m: &M, w: f64, t: f64) -> Result<f64> {
+    let (w, t) = (m.check_w(w)?, m.check_t(t)?);
     let [a, b] = m.components();
     Ok(1000.0 * mean_molar_mass(w, a.molar_mass, b.molar_mass) / m.rho(w, t))
 }
 
 /// Partial molar volumes from the partial specific volumes
 /// v̄₁ = v + (1−w) ∂v/∂w and v̄₂ = v − w ∂v/∂w, with v = 1/ρ and
-/// ∂v/∂w = −ρ_w/ρ² (inputs checked).
+/// ∂v/∂w = −ρ_w/ρ² (`w` and `t` checked).
 pub fn partial_molar_volumes<M: Mixture + ?Sized>(m: &M, w: f64, t: f64) -> Result<[f64; 2]> {
+    let (w, t) = (m.check_w(w)?, m.check_t(t)?);
     let [a, b] = m.components();
     let (r, dr) = m.rho_dw(w, t);
     Ok(pmv_from_rho(r, dr, w, a.molar_mass, b.molar_mass))
@@ -38,8 +40,9 @@ pub fn pmv_from_rho(r: f64, dr: f64, w: f64, m1: f64, m2: f64) -> [f64; 2] {
     ]
 }
 
-/// V^E = V_m − x V₁* − (1−x) V₂* (inputs checked).
+/// V^E = V_m − x V₁* − (1−x) V₂* (`w` and `t` checked).
 pub fn excess_molar_volume<M: Mixture + ?Sized>(m: &M, w: f64, t: f64) -> Result<f64> {
+    let (w, t) = (m.check_w(w)?, m.check_t(t)?);
     let [a, b] = m.components();
     let x = x_from_w(w, a.molar_mass, b.molar_mass);
     let [v1, v2] = m.pure_molar_volumes(t)?;
@@ -47,8 +50,10 @@ pub fn excess_molar_volume<M: Mixture + ?Sized>(m: &M, w: f64, t: f64) -> Result
 }
 
 /// φV₁ = (V_m − (1−x)V₂*)/x, φV₂ = (V_m − xV₁*)/(1−x); at x = 0 (resp. 1)
-/// the limit, which is the partial molar volume at infinite dilution.
+/// the limit, which is the partial molar volume at infinite dilution
+/// (`w` and `t` checked).
 pub fn apparent_molar_volumes<M: Mixture + ?Sized>(m: &M, w: f64, t: f64) -> Result<[f64; 2]> {
+    let (w, t) = (m.check_w(w)?, m.check_t(t)?);
     let [a, b] = m.components();
     let x = x_from_w(w, a.molar_mass, b.molar_mass);
     let [v1s, v2s] = m.pure_molar_volumes(t)?;
@@ -87,8 +92,8 @@ pub fn mix_volumes<M: Mixture + ?Sized>(m: &M, v1: f64, v2: f64, t: f64) -> Resu
     let v1 = non_negative("volume of component 1", v1)?;
     let v2 = non_negative("volume of component 2", v2)?;
     let t = m.check_t(t)?;
-    let m1 = v1 * m.pure_density(0, t)? / 1000.0;
-    let m2 = v2 * m.pure_density(1, t)? / 1000.0;
+    let m1 = finite("mass of component 1", v1 * m.pure_density(0, t)? / 1000.0)?;
+    let m2 = finite("mass of component 2", v2 * m.pure_density(1, t)? / 1000.0)?;
     let mut r = mix_masses(m, m1, m2, t)?;
     r.volume_sum = v1 + v2;
     r.contraction = r.volume_sum - r.volume;
@@ -100,15 +105,19 @@ pub fn mix_masses<M: Mixture + ?Sized>(m: &M, m1: f64, m2: f64, t: f64) -> Resul
     let m1 = non_negative("mass of component 1", m1)?;
     let m2 = non_negative("mass of component 2", m2)?;
     let t = m.check_t(t)?;
-    let total = m1 + m2;
+    let total = finite("total mass", m1 + m2)?;
     if total <= 0.0 {
         return Err(Error::Invalid(
             "nothing to mix: both amounts are zero".into(),
         ));
     }
     let w = m.check_w(m1 / total)?;
-    let volume = total * 1000.0 / m.rho(w, t);
-    let volume_sum = m1 * 1000.0 / m.pure_density(0, t)? + m2 * 1000.0 / m.pure_density(1, t)?;
+    // The factor 1000 can overflow for totals near f64::MAX.
+    let volume = finite("mixture volume", total * 1000.0 / m.rho(w, t))?;
+    let volume_sum = finite(
+        "sum of the volumes",
+        m1 * 1000.0 / m.pure_density(0, t)? + m2 * 1000.0 / m.pure_density(1, t)?,
+    )?;
     Ok(Mixing {
         w,
         mass: total,

@@ -11,13 +11,14 @@ use std::sync::Arc;
 use mlua::{AnyUserData, Lua, MetaMethod, MultiValue, Table, UserData, UserDataMethods, Value};
 
 use super::convert::{
-    bulk, common_len, composition, describe_value, Basis, CompositionArg, Fields, Numbers,
+    bulk, common_len, composition, describe_value, Basis, Bulk, CompositionArg, Fields, Numbers,
     COMPOSITION_KEYS,
 };
 use super::errors::runtime;
 use super::help::{add_help, add_keys, tag};
 use super::limits::check_alloc;
-use crate::kernel::bulk::{DensityInverse, StrengthBases};
+use crate::kernel::composition::x_from_w;
+use crate::kernel::prepared::StrengthBases;
 use crate::kernel::{self, EthanolWater, HydrometerScale, Mixture, GLASS_ALPHA};
 
 /// The Lua userdata of a mixture model.
@@ -121,39 +122,50 @@ fn w_of(m: &dyn Mixture, basis: Basis, value: f64, t_ref: f64, t_meas: f64) -> k
     }
 }
 
-/// Arrays at least this long that are densities at one temperature go
-/// through the prepared inverse ([`DensityInverse`]), whose set-up costs
-/// about three thousand model evaluations.
-const PREPARED_MIN: usize = 1024;
-
-/// The prepared inverse for a density array measured at one temperature.
-fn prepared_inverse<'m>(
-    m: &'m dyn Mixture,
+/// Mass fractions of a density array, solved in one slice call:
+/// [`Mixture::w_from_density_slice`] is vectorised for the reference
+/// equation and uses a prepared inverse for other models at one
+/// temperature. `None` when the argument is not a density array (or its
+/// temperatures do not match it in length, left for [`bulk`] to report).
+/// A bad point is reported as [`bulk`] reports it: function, 1-based
+/// index, the point solve's message.
+fn solved_w(
+    lua: &Lua,
+    m: &dyn Mixture,
     c: &CompositionArg,
     func: &str,
-) -> mlua::Result<Option<DensityInverse<'m, dyn Mixture + 'm>>> {
-    match (c.basis, &c.value, &c.t_meas) {
-        (Basis::Density, Numbers::Many(v), Numbers::One(t)) if v.len() >= PREPARED_MIN => {
-            DensityInverse::new(m, *t)
-                .map(Some)
-                .map_err(|e| runtime(format!("{func}: {e}")))
+) -> mlua::Result<Option<Numbers>> {
+    let (Basis::Density, Numbers::Many(rho)) = (c.basis, &c.value) else {
+        return Ok(None);
+    };
+    let n = rho.len();
+    let repeated;
+    let t: &[f64] = match &c.t_meas {
+        Numbers::Many(t) if t.len() == n => t,
+        Numbers::One(t) => {
+            check_alloc(lua, func, n)?;
+            repeated = vec![*t; n];
+            &repeated
         }
-        _ => Ok(None),
+        Numbers::Many(_) => return Ok(None),
+    };
+    check_alloc(lua, func, n)?;
+    let mut w = vec![0.0; n];
+    match m.w_from_density_slice(rho, t, &mut w) {
+        Ok(()) => Ok(Some(Numbers::Many(w))),
+        Err(kernel::Error::AtPoint { index, source }) => {
+            Err(runtime(format!("{func}: at index {}: {source}", index + 1)))
+        }
+        Err(e) => Err(runtime(format!("{func}: {e}"))),
     }
 }
 
-/// Mass fraction of element values (value, t_ref, t_meas), through the
-/// prepared inverse when there is one.
-#[inline]
-fn w_with(
-    m: &dyn Mixture,
-    inv: &Option<DensityInverse<'_, dyn Mixture + '_>>,
-    basis: Basis,
-    x: &[f64],
-) -> kernel::Result<f64> {
-    match inv {
-        Some(inv) => inv.w(x[0]),
-        None => w_of(m, basis, x[0], x[1], x[2]),
+/// The composition argument with a density array replaced by its solved
+/// mass fractions (see [`solved_w`]), for element-wise evaluation.
+fn with_solved<'a>(solved: &'a Option<Numbers>, c: &'a CompositionArg) -> (Basis, &'a Numbers) {
+    match solved {
+        Some(w) => (Basis::W, w),
+        None => (c.basis, &c.value),
     }
 }
 
@@ -201,14 +213,14 @@ fn property1_parsed(
     t: &Numbers,
     prop: impl Fn(&dyn Mixture, f64, f64) -> kernel::Result<f64>,
 ) -> mlua::Result<Value> {
-    let basis = c.basis;
-    let inv = prepared_inverse(m, c, func)?;
+    let solved = solved_w(lua, m, c, func)?;
+    let (basis, value) = with_solved(&solved, c);
     let [out] = bulk(
         lua,
         func,
-        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", t)],
+        &[(key_of(basis), value), ("t_ref", &c.t_ref), ("t", t)],
         |x| {
-            let w = w_with(m, &inv, basis, x)?;
+            let w = w_of(m, basis, x[0], x[1], x[2])?;
             Ok([prop(m, w, x[2])?])
         },
     )?
@@ -238,17 +250,40 @@ fn density(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Value> {
             };
             if within(&c.value, v.w_min, v.w_max) && within(&t, v.t_min, v.t_max) {
                 check_alloc(lua, func, n)?;
-                let out: Vec<f64> = match (&c.value, &t) {
-                    (Numbers::Many(ws), Numbers::One(t)) => {
-                        ws.iter().map(|w| m.rho(*w, *t)).collect()
-                    }
-                    (w, t) => (0..n).map(|i| m.rho(w.at(i), t.at(i))).collect(),
-                };
+                let out = density_columns(m, &c.value, &t, n)
+                    .map_err(|e| runtime(format!("{func}: {e}")))?;
                 return Ok(Value::UserData(super::vector::create(lua, out)?));
             }
         }
     }
     property1_parsed(lua, m, func, &c, &t, |m, w, t| m.density(w, t))
+}
+
+/// ρ of `n` points through [`Mixture::density_slice`] (vectorised for the
+/// reference equation); a scalar argument is repeated chunk by chunk so
+/// that it costs no allocation.
+fn density_columns(
+    m: &dyn Mixture,
+    w: &Numbers,
+    t: &Numbers,
+    n: usize,
+) -> kernel::Result<Vec<f64>> {
+    const CHUNK: usize = 256;
+    let mut out = vec![0.0; n];
+    if let (Numbers::Many(w), Numbers::Many(t)) = (w, t) {
+        m.density_slice(w, t, &mut out)?;
+        return Ok(out);
+    }
+    let (mut wb, mut tb) = ([0.0; CHUNK], [0.0; CHUNK]);
+    for (k, oc) in out.chunks_mut(CHUNK).enumerate() {
+        let len = oc.len();
+        for j in 0..len {
+            wb[j] = w.at(k * CHUNK + j);
+            tb[j] = t.at(k * CHUNK + j);
+        }
+        m.density_slice(&wb[..len], &tb[..len], oc)?;
+    }
+    Ok(out)
 }
 
 /// A two-output property of (w, t), e.g. partial molar volumes.
@@ -261,14 +296,14 @@ fn property2(
 ) -> mlua::Result<MultiValue> {
     let f = Fields::read(lua, arg, func, PROPERTY_KEYS, "{abv = 40, t = 20}")?;
     let (c, t) = comp_and_t(lua, &f, true)?;
-    let basis = c.basis;
-    let inv = prepared_inverse(m, &c, func)?;
+    let solved = solved_w(lua, m, &c, func)?;
+    let (basis, value) = with_solved(&solved, &c);
     let [a, b] = bulk(
         lua,
         func,
-        &[(key_of(basis), &c.value), ("t_ref", &c.t_ref), ("t", &t)],
+        &[(key_of(basis), value), ("t_ref", &c.t_ref), ("t", &t)],
         |x| {
-            let w = w_with(m, &inv, basis, x)?;
+            let w = w_of(m, basis, x[0], x[1], x[2])?;
             prop(m, w, x[2])
         },
     )?
@@ -314,9 +349,11 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
         .into_values(lua)?;
         return table_of(lua, &STRENGTH_U_FIELDS, vals);
     }
-    let inv = prepared_inverse(m, &c, func)?;
     let bases = StrengthBases::new(m).map_err(|e| runtime(format!("{func}: {e}")))?;
-    let measured_at_20 = inv.is_some() && c.t_meas == Numbers::One(kernel::T_REF_C);
+    if let Some(Numbers::Many(w)) = solved_w(lua, m, &c, func)? {
+        let cols = strength_columns(lua, m, func, w, &c)?;
+        return table_of(lua, &STRENGTH_FIELDS, Bulk::Vectors(cols).into_values(lua)?);
+    }
     let vals = bulk(
         lua,
         func,
@@ -326,19 +363,50 @@ fn strength(lua: &Lua, m: &dyn Mixture, arg: &Value, func: &str) -> mlua::Result
             ("t", &c.t_meas),
         ],
         |x| {
-            let w = w_with(m, &inv, basis, x)?;
-            // A density measured at 20 °C is the density at the % vol
-            // reference temperature: no need to evaluate it again.
-            let s = if measured_at_20 {
-                bases.strength_with_rho_20(w, x[0])?
-            } else {
-                bases.strength(w)?
-            };
+            let w = w_of(m, basis, x[0], x[1], x[2])?;
+            let s = bases.strength(w)?;
             Ok([s.w, s.abm, s.x, s.abv, s.proof])
         },
     )?
     .into_values(lua)?;
     table_of(lua, &STRENGTH_FIELDS, vals)
+}
+
+/// The strength columns (w, % mass, x, % vol, proof) of solved mass
+/// fractions `w` of the density array in `c`, through the slice functions.
+/// The values are those of `Mixture::strength`, except that for densities
+/// measured at 20 °C % vol takes the measured density as ρ(w, 20 °C)
+/// (one model evaluation fewer; equal to the solver's tolerance).
+fn strength_columns(
+    lua: &Lua,
+    m: &dyn Mixture,
+    func: &str,
+    w: Vec<f64>,
+    c: &CompositionArg,
+) -> mlua::Result<[Vec<f64>; 5]> {
+    let err = |e: kernel::Error| runtime(format!("{func}: {e}"));
+    let n = w.len();
+    check_alloc(lua, func, n.saturating_mul(4))?;
+    let [a, b] = m.components();
+    let (m1, m2) = (a.molar_mass, b.molar_mass);
+    let abm = w.iter().map(|w| 100.0 * w).collect();
+    let x = w.iter().map(|&w| x_from_w(w, m1, m2)).collect();
+    let mut abv = vec![0.0; n];
+    match (&c.value, &c.t_meas) {
+        (Numbers::Many(rho), Numbers::One(t)) if *t == kernel::T_REF_C => {
+            let rho1 = m.pure_density(0, kernel::T_REF_C).map_err(err)?;
+            for ((o, &w), &r) in abv.iter_mut().zip(&w).zip(rho) {
+                // As `composition::abv`, operation for operation.
+                *o = (100.0 * (w * (r / rho1))).clamp(0.0, 100.0);
+            }
+        }
+        _ => m.abv_slice(&w, kernel::T_REF_C, &mut abv).map_err(err)?,
+    }
+    let mut proof = vec![0.0; n];
+    m.abv_slice(&w, kernel::T_PROOF_C, &mut proof)
+        .map_err(err)?;
+    proof.iter_mut().for_each(|p| *p *= 2.0);
+    Ok([w, abm, x, abv, proof])
 }
 
 fn hydrometer(lua: &Lua, m: &dyn Mixture, arg: &Value) -> mlua::Result<Table> {
