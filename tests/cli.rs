@@ -8,39 +8,14 @@
 
 use std::io::Read;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::{Output, Stdio};
 use std::time::{Duration, Instant};
 
-use meniscus::lua::{Host, HostOptions};
-
-const BIN: &str = env!("CARGO_BIN_EXE_meniscus");
-
-/// The binary with a hermetic environment: no history file, no stdin.
-fn meniscus() -> Command {
-    let mut c = Command::new(BIN);
-    c.env("MENISCUS_HISTORY", "").stdin(Stdio::null());
-    c
-}
+mod common;
+use common::{meniscus, shown, stderr, stdout};
 
 fn run(args: &[&str]) -> Output {
     meniscus().args(args).output().expect("start meniscus")
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-/// How the host shows what `chunk` returns, followed by a newline.
-fn shown(chunk: &str) -> String {
-    let host = Host::new(HostOptions::default()).unwrap();
-    format!(
-        "{}\n",
-        host.format_values(&host.eval(chunk, "=expected").unwrap())
-    )
 }
 
 /// Runs the binary, killing it if it has not finished within `limit`

@@ -8,13 +8,13 @@
 #![cfg(all(feature = "cli", feature = "plot"))]
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output, Stdio};
+use std::process::Output;
 
 use meniscus::kernel::process::{self, Lot, Weighing};
 use meniscus::kernel::sheet::{CellRef, CsvOptions};
 use meniscus::kernel::{Composition, EthanolWater, HydrometerScale, Mixture, Sheet, GLASS_ALPHA};
 
-const BIN: &str = env!("CARGO_BIN_EXE_meniscus");
+mod common;
 const OUTPUTS: [&str; 3] = ["tanks.csv", "plan.csv", "daily_round.svg"];
 
 fn repo() -> PathBuf {
@@ -38,10 +38,8 @@ fn workdir() -> tempfile::TempDir {
 }
 
 fn run_in(dir: &Path, extra: &[&str]) -> Output {
-    Command::new(BIN)
+    common::meniscus()
         .current_dir(dir)
-        .env("MENISCUS_HISTORY", "")
-        .stdin(Stdio::null())
         .args(extra)
         .output()
         .expect("start meniscus")

@@ -17,86 +17,29 @@ use meniscus::kernel::fit::{
     fit, rows_from_basis, FitRow, FitSpec, OrderChoice, RowBasis, TermChoice,
 };
 use meniscus::kernel::{Component, Mixture};
-use meniscus::lua::{Host, HostError, HostOptions};
-use mlua::{MultiValue, Table, Value};
+use meniscus::lua::{Host, HostOptions};
+use mlua::Table;
 
 // ---- helpers ------------------------------------------------------------
+
+mod common;
+use common::{eval, fails_with, lua_str, num, table, text};
 
 fn host() -> Host {
     host_with(HostOptions::default())
 }
 
 fn host_with(options: HostOptions) -> Host {
-    let h = Host::new(HostOptions {
+    common::quiet_host(HostOptions {
         timeout: Some(Duration::from_secs(60)),
         ..options
     })
-    .expect("host");
-    h.capture_output(true);
-    h
-}
-
-fn eval(h: &Host, src: &str) -> MultiValue {
-    match h.eval(src, "=test") {
-        Ok(v) => v,
-        Err(e) => panic!("eval of {src:?} failed: {}", e.message),
-    }
-}
-
-fn num(h: &Host, src: &str) -> f64 {
-    match eval(h, src).iter().next() {
-        Some(Value::Number(x)) => *x,
-        Some(Value::Integer(i)) => *i as f64,
-        other => panic!("{src}: expected a number, got {other:?}"),
-    }
-}
-
-fn text(h: &Host, src: &str) -> String {
-    match eval(h, src).iter().next() {
-        Some(Value::String(s)) => s.to_str().unwrap().to_string(),
-        other => panic!("{src}: expected a string, got {other:?}"),
-    }
-}
-
-fn table(h: &Host, src: &str) -> Table {
-    match eval(h, src).iter().next() {
-        Some(Value::Table(t)) => t.clone(),
-        other => panic!("{src}: expected a table, got {other:?}"),
-    }
-}
-
-fn err(h: &Host, src: &str) -> HostError {
-    match h.eval(src, "=test") {
-        Ok(v) => panic!("{src:?} should fail, gave {}", h.format_values(&v)),
-        Err(e) => e,
-    }
-}
-
-fn fails_with(h: &Host, src: &str, fragments: &[&str]) {
-    let e = err(h, src);
-    for f in fragments {
-        assert!(
-            e.message.contains(f),
-            "{src:?}: message {:?} lacks {f:?}",
-            e.message
-        );
-    }
-    assert!(!e.message.contains('\n'), "one line: {:?}", e.message);
 }
 
 /// A directory under the crate's target directory (inside the working
 /// directory the tests run in, so scripts may use it).
 fn scratch_dir(name: &str) -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR"))
-        .join("fit_lua")
-        .join(name);
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn lua_str(p: &Path) -> String {
-    format!("{:?}", p.display().to_string())
+    common::scratch_dir("fit_lua", name)
 }
 
 // ---- synthetic data -------------------------------------------------------

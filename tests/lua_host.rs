@@ -5,86 +5,23 @@
 
 #![cfg(feature = "lua")]
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::sync::atomic::Ordering;
 use std::time::{Duration, Instant};
 
 use meniscus::kernel::{Composition, EthanolWater, HydrometerScale, Mixture};
-use meniscus::lua::{Completeness, Host, HostError, HostOptions};
-use mlua::{MultiValue, Table, Value};
+use meniscus::lua::{Completeness, Host, HostOptions};
+use mlua::{Table, Value};
+
+mod common;
+use common::ethanol_water_host as host_with;
+use common::{err, eval, fails_with, lua_str, num, nums, table};
 
 fn host() -> Host {
-    let h = Host::new(HostOptions {
+    host_with(HostOptions {
         timeout: Some(Duration::from_secs(20)),
         ..HostOptions::default()
     })
-    .expect("host");
-    h.capture_output(true);
-    h.eval("m = mixture.ethanol_water()", "=setup")
-        .expect("setup");
-    h
-}
-
-fn host_with(options: HostOptions) -> Host {
-    let h = Host::new(options).expect("host");
-    h.capture_output(true);
-    h.eval("m = mixture.ethanol_water()", "=setup")
-        .expect("setup");
-    h
-}
-
-fn eval(h: &Host, src: &str) -> MultiValue {
-    match h.eval(src, "=test") {
-        Ok(v) => v,
-        Err(e) => panic!("eval of {src:?} failed: {}", e.message),
-    }
-}
-
-fn num(h: &Host, src: &str) -> f64 {
-    let v = eval(h, src);
-    match v.iter().next() {
-        Some(Value::Number(x)) => *x,
-        Some(Value::Integer(i)) => *i as f64,
-        other => panic!("{src}: expected a number, got {other:?}"),
-    }
-}
-
-fn nums(h: &Host, src: &str) -> Vec<f64> {
-    eval(h, src)
-        .iter()
-        .map(|v| match v {
-            Value::Number(x) => *x,
-            Value::Integer(i) => *i as f64,
-            other => panic!("{src}: expected numbers, got {other:?}"),
-        })
-        .collect()
-}
-
-fn table(h: &Host, src: &str) -> Table {
-    match eval(h, src).iter().next() {
-        Some(Value::Table(t)) => t.clone(),
-        other => panic!("{src}: expected a table, got {other:?}"),
-    }
-}
-
-fn err(h: &Host, src: &str) -> HostError {
-    match h.eval(src, "=test") {
-        Ok(v) => panic!("{src:?} should fail, gave {}", h.format_values(&v)),
-        Err(e) => e,
-    }
-}
-
-/// Asserts that `src` fails with a message containing every fragment.
-fn fails_with(h: &Host, src: &str, fragments: &[&str]) {
-    let e = err(h, src);
-    for f in fragments {
-        assert!(
-            e.message.contains(f),
-            "{src:?}: message {:?} lacks {f:?}",
-            e.message
-        );
-    }
-    assert!(!e.message.contains('\n'), "one line: {:?}", e.message);
 }
 
 fn kernel() -> EthanolWater {
@@ -1214,18 +1151,7 @@ fn deep_recursion_is_an_error() {
 // ---- reliability: files -------------------------------------------------
 
 fn scratch_dir(name: &str) -> PathBuf {
-    // Under the crate's target directory, hence under the working
-    // directory the tests run in.
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR"))
-        .join("lua_host")
-        .join(name);
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn lua_str(p: &Path) -> String {
-    format!("{:?}", p.display().to_string())
+    common::scratch_dir("lua_host", name)
 }
 
 #[test]

@@ -11,6 +11,9 @@ use std::time::Duration;
 use meniscus::lua::{Host, HostOptions, PluginInfo};
 use mlua::Value;
 
+mod common;
+use common::text as eval_str;
+
 /// A plugin source with the given name and one function `f` returning `ret`.
 fn plugin(name: &str, ret: &str) -> String {
     format!(
@@ -30,26 +33,14 @@ fn write(dir: &Path, file: &str, source: &str) -> PathBuf {
 }
 
 fn host_with_plugins(dirs: &[&Path]) -> Host {
-    let h = Host::new(HostOptions {
+    common::quiet_host(HostOptions {
         plugin_dirs: dirs.iter().map(|d| d.to_path_buf()).collect(),
         standard_plugin_dirs: false,
         timeout: Some(Duration::from_secs(2)),
         ..HostOptions::default()
     })
-    .expect("host");
-    h.capture_output(true);
-    h
 }
 
-fn eval_str(h: &Host, src: &str) -> String {
-    match h.eval(src, "=test") {
-        Ok(v) => match v.iter().next() {
-            Some(Value::String(s)) => s.to_string_lossy(),
-            other => panic!("{src}: expected a string, got {other:?}"),
-        },
-        Err(e) => panic!("{src}: {}", e.message),
-    }
-}
 
 fn names(plugins: &[PluginInfo]) -> Vec<&str> {
     plugins.iter().map(|p| p.name.as_str()).collect()

@@ -7,79 +7,30 @@
 //! and reductions.
 #![cfg(feature = "lua")]
 
-use std::path::Path;
 use std::time::Duration;
 
 use meniscus::kernel::process::{
     self, units, Amount, Lot, PlanLot, PlanTarget, PlanWater, Weighing,
 };
 use meniscus::kernel::{Composition, EthanolWater, Mixture};
-use meniscus::lua::{Host, HostError, HostOptions};
-use mlua::{MultiValue, Table, Value};
+use meniscus::lua::{Host, HostOptions};
+use mlua::{Table, Value};
 use proptest::prelude::*;
 use proptest::test_runner::{Config, TestRunner};
 
+mod common;
+use common::field as get;
+use common::{close, eval, fails_with, lua_str as lua_path, table};
+
 fn host_with(options: HostOptions) -> Host {
-    let h = Host::new(HostOptions {
+    common::ethanol_water_host(HostOptions {
         timeout: Some(Duration::from_secs(20)),
         ..options
     })
-    .expect("host");
-    h.capture_output(true);
-    h.eval("m = mixture.ethanol_water()", "=setup")
-        .expect("setup");
-    h
 }
 
 fn host() -> Host {
     host_with(HostOptions::default())
-}
-
-fn eval(h: &Host, src: &str) -> MultiValue {
-    match h.eval(src, "=test") {
-        Ok(v) => v,
-        Err(e) => panic!("eval of {src:?} failed: {}", e.message),
-    }
-}
-
-fn table(h: &Host, src: &str) -> Table {
-    match eval(h, src).iter().next() {
-        Some(Value::Table(t)) => t.clone(),
-        other => panic!("{src}: expected a table, got {other:?}"),
-    }
-}
-
-fn get(t: &Table, k: &str) -> f64 {
-    match t.get::<Value>(k).unwrap() {
-        Value::Number(x) => x,
-        Value::Integer(i) => i as f64,
-        other => panic!("field {k}: expected a number, got {other:?}"),
-    }
-}
-
-fn err(h: &Host, src: &str) -> HostError {
-    match h.eval(src, "=test") {
-        Ok(v) => panic!("{src:?} should fail, gave {}", h.format_values(&v)),
-        Err(e) => e,
-    }
-}
-
-/// Asserts that `src` fails with a one-line message containing every
-/// fragment.
-fn fails_with(h: &Host, src: &str, fragments: &[&str]) {
-    let e = err(h, src);
-    for f in fragments {
-        assert!(
-            e.message.contains(f),
-            "{src:?}: message {:?} lacks {f:?}",
-            e.message
-        );
-    }
-    assert!(!e.message.contains('\n'), "one line: {:?}", e.message);
-}
-
-fn close(a: f64, b: f64, rel: f64) -> bool {
-    (a - b).abs() <= rel * a.abs().max(b.abs()).max(1.0)
 }
 
 fn k() -> EthanolWater {
@@ -736,10 +687,6 @@ fn temp_host() -> (tempfile::TempDir, Host) {
         ..HostOptions::default()
     });
     (dir, h)
-}
-
-fn lua_path(p: &Path) -> String {
-    format!("{:?}", p.display().to_string())
 }
 
 #[test]

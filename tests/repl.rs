@@ -4,18 +4,16 @@
 #![cfg(feature = "cli")]
 
 use std::io::Write;
-use std::process::{Command, Output, Stdio};
+use std::process::{Output, Stdio};
 
-use meniscus::lua::{Host, HostOptions};
-
-const BIN: &str = env!("CARGO_BIN_EXE_meniscus");
+mod common;
+use common::{meniscus, shown, stderr, stdout};
 
 /// Runs `meniscus ARGS` with `input` on stdin (a pipe, so the batch front
 /// end), without a history file.
 fn session(args: &[&str], input: &str) -> Output {
-    let mut child = Command::new(BIN)
+    let mut child = meniscus()
         .args(args)
-        .env("MENISCUS_HISTORY", "")
         .stdin(Stdio::piped())
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
@@ -30,23 +28,6 @@ fn session(args: &[&str], input: &str) -> Output {
     let out = child.wait_with_output().unwrap();
     writer.join().unwrap();
     out
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-/// How the host shows what `chunk` returns, followed by a newline.
-fn shown(chunk: &str) -> String {
-    let host = Host::new(HostOptions::default()).unwrap();
-    format!(
-        "{}\n",
-        host.format_values(&host.eval(chunk, "=expected").unwrap())
-    )
 }
 
 #[test]

@@ -11,68 +11,24 @@ use std::time::Duration;
 use meniscus::kernel::sheet::{CellRef, ColumnData, CsvOptions, Sheet, Value as Cell};
 use meniscus::kernel::{EthanolWater, HydrometerScale, Mixture};
 use meniscus::lua::sheet::SheetUd;
-use meniscus::lua::{Host, HostError, HostOptions};
-use mlua::{AnyUserData, MultiValue, Value};
+use meniscus::lua::{Host, HostOptions};
+use mlua::AnyUserData;
 use proptest::prelude::*;
 
+mod common;
+use common::{err, eval, fails_with, num, text};
+
 fn host_in(dir: &Path) -> Host {
-    let h = Host::new(HostOptions {
+    common::ethanol_water_host(HostOptions {
         timeout: Some(Duration::from_secs(60)),
         allow_paths: vec![dir.to_path_buf()],
         standard_plugin_dirs: false,
         ..HostOptions::default()
     })
-    .expect("host");
-    h.capture_output(true);
-    h.eval("m = mixture.ethanol_water()", "=setup")
-        .expect("setup");
-    h
 }
 
 fn host() -> Host {
     host_in(&std::env::temp_dir())
-}
-
-fn eval(h: &Host, src: &str) -> MultiValue {
-    match h.eval(src, "=test") {
-        Ok(v) => v,
-        Err(e) => panic!("eval of {src:?} failed: {}", e.message),
-    }
-}
-
-fn num(h: &Host, src: &str) -> f64 {
-    match eval(h, src).iter().next() {
-        Some(Value::Number(x)) => *x,
-        Some(Value::Integer(i)) => *i as f64,
-        other => panic!("{src}: expected a number, got {other:?}"),
-    }
-}
-
-fn text(h: &Host, src: &str) -> String {
-    match eval(h, src).iter().next() {
-        Some(Value::String(s)) => s.to_string_lossy(),
-        other => panic!("{src}: expected a string, got {other:?}"),
-    }
-}
-
-fn err(h: &Host, src: &str) -> HostError {
-    match h.eval(src, "=test") {
-        Ok(v) => panic!("{src:?} should fail, gave {}", h.format_values(&v)),
-        Err(e) => e,
-    }
-}
-
-/// Asserts that `src` fails with a one-line message containing every fragment.
-fn fails_with(h: &Host, src: &str, fragments: &[&str]) {
-    let e = err(h, src);
-    for f in fragments {
-        assert!(
-            e.message.contains(f),
-            "{src:?}: message {:?} lacks {f:?}",
-            e.message
-        );
-    }
-    assert!(!e.message.contains('\n'), "one line: {:?}", e.message);
 }
 
 /// The kernel sheet behind a Lua global holding a sheet.
