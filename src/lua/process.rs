@@ -22,74 +22,37 @@ use crate::kernel::{self, Composition, Mixture};
 /// Method names added to every mixture userdata by this module.
 pub const METHODS: [&str; 5] = ["pure_alcohol", "reduce", "blend", "plan_blend", "bottles"];
 
+/// A key list: the strength keys (composition and its temperatures), then
+/// `extra`, so every table that describes a strength accepts them alike.
+macro_rules! strength_keys {
+    ($($extra:literal),* $(,)?) => {
+        &["w", "abm", "x", "abv", "proof", "density", "t", "t_ref", $($extra),*]
+    };
+}
+
+/// A key list: the strength keys, the amount keys of a lot, then `extra`.
+macro_rules! lot_keys {
+    ($($extra:literal),* $(,)?) => {
+        strength_keys!(
+            "volume",
+            "mass",
+            "air",
+            "air_density",
+            "weights_density",
+            $($extra),*
+        )
+    };
+}
+
 /// Keys of a lot table: composition, temperature, amount.
-const LOT_KEYS: &[&str] = &[
-    "w",
-    "abm",
-    "x",
-    "abv",
-    "proof",
-    "density",
-    "t",
-    "t_ref",
-    "volume",
-    "mass",
-    "air",
-    "air_density",
-    "weights_density",
-];
-const REDUCE_KEYS: &[&str] = &[
-    "w",
-    "abm",
-    "x",
-    "abv",
-    "proof",
-    "density",
-    "t",
-    "t_ref",
-    "volume",
-    "mass",
-    "air",
-    "air_density",
-    "weights_density",
-    "target",
-    "water_t",
-];
-const BOTTLES_KEYS: &[&str] = &[
-    "w",
-    "abm",
-    "x",
-    "abv",
-    "proof",
-    "density",
-    "t",
-    "t_ref",
-    "volume",
-    "mass",
-    "air",
-    "air_density",
-    "weights_density",
-    "size",
-];
-const TARGET_KEYS: &[&str] = &["w", "abm", "x", "abv", "proof", "density", "t", "t_ref"];
+const LOT_KEYS: &[&str] = lot_keys!();
+const REDUCE_KEYS: &[&str] = lot_keys!("target", "water_t");
+const BOTTLES_KEYS: &[&str] = lot_keys!("size");
+const TARGET_KEYS: &[&str] = strength_keys!();
 const PLAN_KEYS: &[&str] = &["lots", "target", "water"];
-const PLAN_LOT_KEYS: &[&str] = &[
-    "w",
-    "abm",
-    "x",
-    "abv",
-    "proof",
-    "density",
-    "t",
-    "t_ref",
-    "cost",
-    "limit",
-    "limit_mass",
-];
+const PLAN_LOT_KEYS: &[&str] = strength_keys!("cost", "limit", "limit_mass");
 const PLAN_WATER_KEYS: &[&str] = &["t", "cost", "limit", "limit_mass"];
-const PLAN_TARGET_KEYS: &[&str] = &[
-    "w", "abm", "x", "abv", "proof", "density", "t", "t_ref", "volume",
-];
+const PLAN_TARGET_KEYS: &[&str] = strength_keys!("volume");
 
 /// Most lots one `m:blend` call takes (far more than any cellar blends; a
 /// bound on what Rust allocates on a script's behalf).
