@@ -167,12 +167,40 @@ pub fn density_vs_composition(
         .title
         .clone()
         .unwrap_or_else(|| format!("Density of {}", m.name()));
+    curves_and_points_svg(
+        &title,
+        opts,
+        (x0, x1),
+        (y0, y1),
+        &format!("mass fraction of {} w", c1.name),
+        "density ρ / (kg/m³)",
+        temps,
+        &curves,
+        &rows,
+    )
+}
+
+/// One SVG chart of model curves (one per temperature of `temps`) and the
+/// data points `rows` (temperature slot, x, y) in the same colours, with a
+/// legend in the emptiest corner.
+#[allow(clippy::too_many_arguments)]
+fn curves_and_points_svg(
+    title: &str,
+    opts: &PlotOptions,
+    (x0, x1): (f64, f64),
+    (y0, y1): (f64, f64),
+    x_desc: &str,
+    y_desc: &str,
+    temps: &[f64],
+    curves: &[Vec<(f64, f64)>],
+    rows: &[(usize, f64, f64)],
+) -> Result<String> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (opts.width, opts.height)).into_drawing_area();
         root.fill(&WHITE).map_err(plot_err)?;
         let mut chart = ChartBuilder::on(&root)
-            .caption(&title, ("sans-serif", 22))
+            .caption(title, ("sans-serif", 22))
             .margin(12)
             .x_label_area_size(48)
             .y_label_area_size(72)
@@ -181,8 +209,8 @@ pub fn density_vs_composition(
         chart
             .configure_mesh()
             .y_label_formatter(&tick)
-            .x_desc(format!("mass fraction of {} w", c1.name))
-            .y_desc("density ρ / (kg/m³)")
+            .x_desc(x_desc)
+            .y_desc(y_desc)
             .draw()
             .map_err(plot_err)?;
         for (i, (pts, &t)) in curves.iter().zip(temps).enumerate() {
@@ -312,58 +340,17 @@ pub fn excess_volume_vs_x(
         .title
         .clone()
         .unwrap_or_else(|| format!("Excess molar volume of {}", m.name()));
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (opts.width, opts.height)).into_drawing_area();
-        root.fill(&WHITE).map_err(plot_err)?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(&title, ("sans-serif", 22))
-            .margin(12)
-            .x_label_area_size(48)
-            .y_label_area_size(72)
-            .build_cartesian_2d(-0.02..1.02, y0..y1)
-            .map_err(plot_err)?;
-        chart
-            .configure_mesh()
-            .y_label_formatter(&tick)
-            .x_desc(format!("mole fraction of {} x", c1.name))
-            .y_desc("excess molar volume V^E / (cm³/mol)")
-            .draw()
-            .map_err(plot_err)?;
-        for (i, (pts, &t)) in curves.iter().zip(temps).enumerate() {
-            let c = color(i);
-            chart
-                .draw_series(LineSeries::new(pts.iter().copied(), c.stroke_width(2)))
-                .map_err(plot_err)?
-                .label(format!("model {}", fmt_t(t)))
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2))
-                });
-            let mine: Vec<(f64, f64)> = rows
-                .iter()
-                .filter(|r| r.0 == i)
-                .map(|r| (r.1, r.2))
-                .collect();
-            if !mine.is_empty() {
-                chart
-                    .draw_series(PointSeries::of_element(mine, 4, c, &|p, s, st| {
-                        EmptyElement::at(p) + Circle::new((0, 0), s, st.filled())
-                    }))
-                    .map_err(plot_err)?
-                    .label(format!("data {}", fmt_t(t)))
-                    .legend(move |(x, y)| Circle::new((x + 10, y), 4, c.filled()));
-            }
-        }
-        let all: Vec<(f64, f64)> = curves
-            .iter()
-            .flatten()
-            .copied()
-            .chain(rows.iter().map(|r| (r.1, r.2)))
-            .collect();
-        draw_legend(&mut chart, legend_corner(&all, (-0.02, 1.02), (y0, y1)))?;
-        root.present().map_err(plot_err)?;
-    }
-    Ok(svg)
+    curves_and_points_svg(
+        &title,
+        opts,
+        (-0.02, 1.02),
+        (y0, y1),
+        &format!("mole fraction of {} x", c1.name),
+        "excess molar volume V^E / (cm³/mol)",
+        temps,
+        &curves,
+        &rows,
+    )
 }
 
 /// Partial molar volumes of both components against mole fraction of
