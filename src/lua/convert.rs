@@ -625,6 +625,19 @@ impl<'f> Fields<'f> {
         self.numbers(lua, key)?
             .ok_or_else(|| runtime(format!("{}: {key} is required ({hint})", self.func)))
     }
+
+    /// An optional `true`/`false` argument (absent or nil gives `None`).
+    pub fn opt_bool(&self, key: &str) -> mlua::Result<Option<bool>> {
+        match self.get(key)?.as_ref() {
+            None | Some(Value::Nil) => Ok(None),
+            Some(Value::Boolean(b)) => Ok(Some(*b)),
+            Some(other) => Err(runtime(format!(
+                "{}: {key} must be true or false, got {}",
+                self.func,
+                describe_value(other)
+            ))),
+        }
+    }
 }
 
 /// Composition bases, as keys of a composition table.

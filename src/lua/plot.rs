@@ -51,18 +51,6 @@ struct Request {
     band: bool,
 }
 
-fn bool_opt(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
-    match f.get(key)?.as_ref() {
-        None | Some(Value::Nil) => Ok(None),
-        Some(Value::Boolean(b)) => Ok(Some(*b)),
-        Some(other) => Err(runtime(format!(
-            "{}: {key} must be true or false, got {}",
-            f.func(),
-            describe_value(other)
-        ))),
-    }
-}
-
 fn pixels(f: &Fields, key: &str, default: u32) -> mlua::Result<u32> {
     match f.get(key)?.as_ref() {
         None | Some(Value::Nil) => Ok(default),
@@ -201,7 +189,7 @@ fn read_request(
     if temps.is_empty() {
         temps = default_temperatures(&*model, fit.as_deref());
     }
-    let data = match bool_opt(&f, "data")? {
+    let data = match f.opt_bool("data")? {
         Some(true) if fit.is_none() => {
             return Err(runtime(format!(
                 "{func}: data = true draws the rows a mixture was fitted to, and '{}' is not a \
@@ -213,7 +201,7 @@ fn read_request(
         None => fit.is_some(),
     };
     let band = if keys.contains(&"band") {
-        match bool_opt(&f, "band")? {
+        match f.opt_bool("band")? {
             Some(true) if fit.is_none() => {
                 return Err(runtime(format!(
                     "{func}: band = true draws a fitted mixture's ±2u band, and '{}' is not a \

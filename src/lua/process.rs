@@ -83,25 +83,13 @@ fn strength_of(lua: &Lua, f: &Fields) -> mlua::Result<Composition> {
     ))
 }
 
-fn opt_bool(f: &Fields, key: &str) -> mlua::Result<Option<bool>> {
-    match f.get(key)?.as_ref() {
-        None | Some(Value::Nil) => Ok(None),
-        Some(Value::Boolean(b)) => Ok(Some(*b)),
-        Some(other) => Err(runtime(format!(
-            "{}: {key} must be true or false, got {}",
-            f.func(),
-            describe_value(other)
-        ))),
-    }
-}
-
 /// The amount of a lot table: exactly one of `volume` (L at `t`, default
 /// 20 °C) and `mass` (kg; with `air = true` a balance reading in air, the
 /// liquid at `t`).
 fn amount_of(f: &Fields) -> mlua::Result<Amount> {
     let func = f.func();
     let t = opt_number(f.get("t")?.as_ref(), func, "t")?.unwrap_or(kernel::T_REF_C);
-    let air = opt_bool(f, "air")?.unwrap_or(false);
+    let air = f.opt_bool("air")?.unwrap_or(false);
     let volume = opt_number(f.get("volume")?.as_ref(), func, "volume")?;
     let mass = opt_number(f.get("mass")?.as_ref(), func, "mass")?;
     if !air && (f.has("air_density") || f.has("weights_density")) {

@@ -939,16 +939,8 @@ fn csv_options(lua: &Lua, v: Option<&LuaValue>, func: &str) -> mlua::Result<CsvO
             }
         }
     }
-    if let Some(e) = f.get("empty_numbers")?.as_ref() {
-        match e {
-            LuaValue::Boolean(b) => o.allow_empty_numbers = *b,
-            other => {
-                return Err(runtime(format!(
-                    "{func}: empty_numbers must be true or false, got {}",
-                    describe_value(other)
-                )))
-            }
-        }
+    if let Some(b) = f.opt_bool("empty_numbers")? {
+        o.allow_empty_numbers = b;
     }
     Ok(o)
 }
@@ -1354,16 +1346,7 @@ fn grid(lua: &Lua, arg: LuaValue) -> mlua::Result<AnyUserData> {
     check_size(lua, func, nrows, ncols, bytes)?;
     let mut progress = Progress::new("building the table");
     let mut on_progress = |done: usize, total: usize| progress.update(done, total);
-    let vectorized = match f.get("vectorized")?.as_ref() {
-        None | Some(LuaValue::Boolean(false)) => false,
-        Some(LuaValue::Boolean(true)) => true,
-        Some(other) => {
-            return Err(runtime(format!(
-                "{func}: vectorized must be true or false, got {}",
-                describe_value(other)
-            )))
-        }
-    };
+    let vectorized = f.opt_bool("vectorized")?.unwrap_or(false);
     // Vectorized: one call per row value with every column value, cached
     // for the points of that row (the grid visits points row by row).
     let col_vector = if vectorized {
