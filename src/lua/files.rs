@@ -17,7 +17,7 @@ use mlua::{Lua, Value};
 
 use super::convert::describe_value;
 use super::errors::runtime;
-use super::help::{add_help, tag};
+use super::help::{add_help, set_tagged, tag};
 
 /// Where scripts may read and write: canonical directories.
 #[derive(Debug, Clone)]
@@ -188,14 +188,14 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
         })?;
         Ok(resolved.exists())
     })?;
-    ns.set("read", read.clone())?;
-    ns.set("write", write.clone())?;
-    ns.set("exists", exists.clone())?;
+    set_tagged(
+        lua,
+        &ns,
+        "files",
+        vec![("read", read), ("write", write), ("exists", exists)],
+    )?;
     lua.globals().set("files", ns.clone())?;
     tag(lua, Value::Table(ns), "files")?;
-    tag(lua, Value::Function(read), "files.read")?;
-    tag(lua, Value::Function(write), "files.write")?;
-    tag(lua, Value::Function(exists), "files.exists")?;
     add_help(
         lua,
         "files",

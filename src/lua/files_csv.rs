@@ -14,7 +14,7 @@ use mlua::{Lua, Table, Value};
 use super::convert::describe_value;
 use super::errors::{describe, runtime};
 use super::files::{resolve_path, write_text, FileRoots};
-use super::help::{add_help, tag};
+use super::help::{add_help, set_tagged};
 use crate::kernel::sheet::{CellRef, ColumnData, CsvOptions};
 use crate::kernel::{self, Sheet};
 
@@ -361,15 +361,16 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
             t
         }
     };
-    let read = lua.create_function(read_csv)?;
-    let write = lua.create_function(write_csv)?;
-    let mk = lua.create_function(mkdir)?;
-    ns.set("read_csv", read.clone())?;
-    ns.set("write_csv", write.clone())?;
-    ns.set("mkdir", mk.clone())?;
-    tag(lua, Value::Function(read), "files.read_csv")?;
-    tag(lua, Value::Function(write), "files.write_csv")?;
-    tag(lua, Value::Function(mk), "files.mkdir")?;
+    set_tagged(
+        lua,
+        &ns,
+        "files",
+        vec![
+            ("read_csv", lua.create_function(read_csv)?),
+            ("write_csv", lua.create_function(write_csv)?),
+            ("mkdir", lua.create_function(mkdir)?),
+        ],
+    )?;
     add_help(
         lua,
         "files.read_csv",

@@ -111,6 +111,21 @@ pub fn tag(lua: &Lua, value: Value, name: &str) -> mlua::Result<()> {
     tags(lua)?.raw_set(value, name)
 }
 
+/// Sets each `(name, function)` as field `name` of `ns` and tags the
+/// function `prefix.name` for help.
+pub fn set_tagged(
+    lua: &Lua,
+    ns: &Table,
+    prefix: &str,
+    fns: Vec<(&str, Function)>,
+) -> mlua::Result<()> {
+    for (name, f) in fns {
+        ns.set(name, f.clone())?;
+        tag(lua, Value::Function(f), &format!("{prefix}.{name}"))?;
+    }
+    Ok(())
+}
+
 /// The help name tied to a function, if any.
 pub fn function_name(lua: &Lua, f: &Function) -> Option<String> {
     tags(lua).ok()?.raw_get::<Option<String>>(f.clone()).ok()?
