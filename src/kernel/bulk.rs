@@ -47,10 +47,7 @@ pub fn density_slice<M: Mixture + ?Sized>(
     t: &[f64],
     out: &mut [f64],
 ) -> Result<()> {
-    same_lengths(("w", w.len()), ("t", t.len()), out.len())?;
-    check_points(m, w, t)?;
-    evaluate(m, Quantity::Density, w, t, out);
-    Ok(())
+    checked_evaluate(m, Quantity::Density, w, t, out)
 }
 
 /// `out[i] = ∂ρ/∂w(w[i], t[i])`, all points checked first.
@@ -60,9 +57,21 @@ pub fn drho_dw_slice<M: Mixture + ?Sized>(
     t: &[f64],
     out: &mut [f64],
 ) -> Result<()> {
+    checked_evaluate(m, Quantity::DrhoDw, w, t, out)
+}
+
+/// `out[i] = q(w[i], t[i])` once the lengths agree and every point is in
+/// range.
+fn checked_evaluate<M: Mixture + ?Sized>(
+    m: &M,
+    q: Quantity,
+    w: &[f64],
+    t: &[f64],
+    out: &mut [f64],
+) -> Result<()> {
     same_lengths(("w", w.len()), ("t", t.len()), out.len())?;
     check_points(m, w, t)?;
-    evaluate(m, Quantity::DrhoDw, w, t, out);
+    evaluate(m, q, w, t, out);
     Ok(())
 }
 
