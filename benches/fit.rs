@@ -9,24 +9,9 @@ use std::time::{Duration, Instant};
 use meniscus::kernel::fit::{fit, FitRow, FitSpec};
 use meniscus::kernel::{EthanolWater, Mixture};
 
-/// Deterministic normal deviates (xorshift64 + Box–Muller).
-struct Noise(u64);
-
-impl Noise {
-    fn uniform(&mut self) -> f64 {
-        let mut x = self.0;
-        x ^= x << 13;
-        x ^= x >> 7;
-        x ^= x << 17;
-        self.0 = x;
-        (x >> 11) as f64 / (1u64 << 53) as f64
-    }
-    fn normal(&mut self) -> f64 {
-        let u1 = self.uniform().max(1e-300);
-        let u2 = self.uniform();
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
+#[path = "../tests/common/noise.rs"]
+mod noise;
+use noise::Noise;
 
 fn median(mut v: Vec<Duration>) -> Duration {
     v.sort();

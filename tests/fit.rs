@@ -11,24 +11,8 @@ use meniscus::kernel::fit::{
 };
 use meniscus::kernel::{Component, Error, EthanolWater, Mixture, Validity};
 
-/// xorshift64 with Box–Muller: deterministic normal deviates for noise.
-struct Noise(u64);
-
-impl Noise {
-    fn uniform(&mut self) -> f64 {
-        let mut x = self.0;
-        x ^= x << 13;
-        x ^= x >> 7;
-        x ^= x << 17;
-        self.0 = x;
-        (x >> 11) as f64 / (1u64 << 53) as f64
-    }
-    fn normal(&mut self) -> f64 {
-        let u1 = self.uniform().max(1e-300);
-        let u2 = self.uniform();
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
-    }
-}
+mod common;
+use common::noise::Noise;
 
 const TEMPS: [f64; 3] = [10.0, 20.0, 30.0];
 

@@ -6,6 +6,8 @@
 //! `dead_code` allowance.
 #![allow(dead_code)]
 
+pub mod noise;
+
 #[cfg(feature = "lua")]
 use std::path::{Path, PathBuf};
 #[cfg(feature = "cli")]
