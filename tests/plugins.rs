@@ -41,7 +41,6 @@ fn host_with_plugins(dirs: &[&Path]) -> Host {
     })
 }
 
-
 fn names(plugins: &[PluginInfo]) -> Vec<&str> {
     plugins.iter().map(|p| p.name.as_str()).collect()
 }

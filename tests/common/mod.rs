@@ -133,7 +133,9 @@ pub fn fails_with(h: &Host, src: &str, fragments: &[&str]) {
 /// it.
 #[cfg(feature = "lua")]
 pub fn scratch_dir(group: &str, name: &str) -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(group).join(name);
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR"))
+        .join(group)
+        .join(name);
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
