@@ -216,32 +216,13 @@ pub fn check_alloc(lua: &Lua, what: &str, elements: usize) -> mlua::Result<()> {
             "{what}: {elements} values is more than the {MAX_VECTOR_LEN} a vector may hold"
         )));
     }
-    let Some(mem) = rust_memory(lua) else {
-        return Ok(());
-    };
     let bytes = elements.saturating_mul(std::mem::size_of::<f64>());
-    let fits = |lua: &Lua| {
-        lua.used_memory()
-            .saturating_add(mem.live())
-            .saturating_add(bytes)
-            <= mem.limit.get()
-    };
-    if fits(lua) {
-        return Ok(());
-    }
-    // Vectors are freed only when Lua collects their userdata, and Lua does
-    // not know how big they are: collect now before refusing.
-    let _ = lua.gc_collect();
-    let _ = lua.gc_collect();
-    if fits(lua) {
-        return Ok(());
-    }
-    Err(mlua::Error::RuntimeError(format!(
-        "{what}: not enough memory for {elements} values ({} MiB; memory limit {} MiB, {} MiB in use)",
-        mib(bytes),
-        mib(mem.limit.get()),
-        mib(lua.used_memory() + mem.live())
-    )))
+    check_bytes(lua, bytes).map_err(|figures| {
+        mlua::Error::RuntimeError(format!(
+            "{what}: not enough memory for {elements} values ({} MiB; {figures})",
+            mib(bytes)
+        ))
+    })
 }
 
 /// Checks that `bytes` more of Rust memory may be held for a script (a
@@ -260,6 +241,8 @@ pub fn check_bytes(lua: &Lua, bytes: usize) -> Result<(), String> {
     if fits(lua) {
         return Ok(());
     }
+    // Vectors are freed only when Lua collects their userdata, and Lua does
+    // not know how big they are: collect now before refusing.
     let _ = lua.gc_collect();
     let _ = lua.gc_collect();
     if fits(lua) {
