@@ -46,14 +46,31 @@ fn ln_gamma(x: f64) -> f64 {
     0.5 * (2.0 * std::f64::consts::PI).ln() + (x + 0.5) * t.ln() - t + a.ln()
 }
 
+/// Smallest magnitude the Lentz denominators may take (keeps them off zero).
+const LENTZ_TINY: f64 = 1e-300;
+
+/// One term of the modified Lentz method: folds the partial numerator `aa`
+/// into `c` and `d` and returns the factor the fraction is multiplied by.
+fn lentz_step(aa: f64, c: &mut f64, d: &mut f64) -> f64 {
+    *d = 1.0 + aa * *d;
+    if d.abs() < LENTZ_TINY {
+        *d = LENTZ_TINY;
+    }
+    *c = 1.0 + aa / *c;
+    if c.abs() < LENTZ_TINY {
+        *c = LENTZ_TINY;
+    }
+    *d = 1.0 / *d;
+    *d * *c
+}
+
 /// Continued fraction of the incomplete beta function (modified Lentz).
 fn beta_cf(a: f64, b: f64, x: f64) -> f64 {
-    const TINY: f64 = 1e-300;
     let (qab, qap, qam) = (a + b, a + 1.0, a - 1.0);
     let mut c = 1.0;
     let mut d = 1.0 - qab * x / qap;
-    if d.abs() < TINY {
-        d = TINY;
+    if d.abs() < LENTZ_TINY {
+        d = LENTZ_TINY;
     }
     d = 1.0 / d;
     let mut h = d;
@@ -61,27 +78,9 @@ fn beta_cf(a: f64, b: f64, x: f64) -> f64 {
         let m = m as f64;
         let m2 = 2.0 * m;
         let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        h *= d * c;
+        h *= lentz_step(aa, &mut c, &mut d);
         let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        let del = d * c;
+        let del = lentz_step(aa, &mut c, &mut d);
         h *= del;
         if (del - 1.0).abs() < 1e-15 {
             break;
