@@ -232,6 +232,24 @@ fn string_arg(v: &LuaValue, func: &str, arg: &str) -> mlua::Result<String> {
     }
 }
 
+/// Whether `t` holds exactly the indices 1..=`n`: a key that is not one of
+/// them is the error `bad_key` makes of it; `false` means a hole.
+fn keys_are_indices(
+    t: &Table,
+    n: usize,
+    bad_key: impl Fn(&LuaValue) -> mlua::Error,
+) -> mlua::Result<bool> {
+    let mut count = 0usize;
+    t.for_each::<LuaValue, LuaValue>(|k, _| {
+        count += 1;
+        match k {
+            LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => Ok(()),
+            other => Err(bad_key(&other)),
+        }
+    })?;
+    Ok(count == n)
+}
+
 /// A Lua array of strings (column names, dependencies).
 fn string_list(v: &LuaValue, func: &str, arg: &str) -> mlua::Result<Vec<String>> {
     let LuaValue::Table(t) = v else {
@@ -242,18 +260,13 @@ fn string_list(v: &LuaValue, func: &str, arg: &str) -> mlua::Result<Vec<String>>
     };
     let n = t.raw_len();
     let mut out = Vec::with_capacity(n);
-    let mut count = 0usize;
-    t.for_each::<LuaValue, LuaValue>(|k, _| {
-        count += 1;
-        match k {
-            LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => Ok(()),
-            other => Err(runtime(format!(
-                "{func}: {arg} must be a list of names, but it has the key {}",
-                describe_value(&other)
-            ))),
-        }
+    let whole = keys_are_indices(t, n, |k| {
+        runtime(format!(
+            "{func}: {arg} must be a list of names, but it has the key {}",
+            describe_value(k)
+        ))
     })?;
-    if count != n {
+    if !whole {
         return Err(runtime(format!("{func}: {arg} has a hole")));
     }
     for i in 1..=n {
@@ -277,18 +290,13 @@ fn column_data(lua: &Lua, v: &LuaValue, func: &str, name: &str) -> mlua::Result<
                 return Ok(ColumnData::Numbers(xs));
             }
             let n = t.raw_len();
-            let mut count = 0usize;
-            t.for_each::<LuaValue, LuaValue>(|k, _| {
-                count += 1;
-                match k {
-                    LuaValue::Integer(i) if i >= 1 && (i as usize) <= n => Ok(()),
-                    other => Err(runtime(format!(
-                        "{func}: the values for column \"{name}\" must be an array, but it has the key {}",
-                        describe_value(&other)
-                    ))),
-                }
+            let whole = keys_are_indices(t, n, |k| {
+                runtime(format!(
+                    "{func}: the values for column \"{name}\" must be an array, but it has the key {}",
+                    describe_value(k)
+                ))
             })?;
-            if count != n {
+            if !whole {
                 return Err(runtime(format!(
                     "{func}: the values for column \"{name}\" have a hole (nil); write \"\" for an empty cell"
                 )));
