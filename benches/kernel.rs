@@ -1,6 +1,7 @@
 //! Throughput of the ethanol–water reference model over 10⁶ points spread
 //! over 0–100 % mass and −20…40 °C: forward density, ∂ρ/∂w, and the
-//! inverse solve (density → mass fraction, and on to % vol at 20 °C).
+//! inverse solve (density → mass fraction, and on to % vol at 20 °C), and
+//! % vol → mass fraction point by point.
 //!
 //! Each benchmark processes all 10⁶ points per iteration, so criterion's
 //! time per iteration in milliseconds reads directly as nanoseconds per
@@ -16,10 +17,13 @@ use std::hint::black_box;
 use std::time::Duration;
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
-use meniscus::kernel::composition;
+use meniscus::kernel::composition::{self, Composition};
 use meniscus::kernel::{EthanolWater, Mixture, T_REF_C};
 
 const N: usize = 1_000_000;
+
+/// A % vol (0–100) expressed as the composition a point-by-point row converts.
+type AbvCase = fn(f64) -> Composition;
 
 /// w rising over 0–1 while t falls over 40 → −20 °C.
 fn diagonal() -> (Vec<f64>, Vec<f64>) {
@@ -120,6 +124,33 @@ fn kernel(c: &mut Criterion) {
         eprintln!(
             "{layout}: checksum density {sum_rho:.6} abv {sum_abv:.6}; inverse worst |Δw| {worst:e}"
         );
+    }
+    // % vol → w one point at a time, as a scalar call from Lua or a sheet
+    // formula makes it: at 20 °C (% vol), at 60 °F (proof) and at a
+    // reference temperature with no table (15 °C, the bracketed solve).
+    let step = 100.0 / (N - 1) as f64;
+    let abv_in: Vec<f64> = (0..N).map(|i| i as f64 * step).collect();
+    let cases: [(&str, AbvCase); 3] = [
+        ("% vol at 20 °C -> w, point by point", Composition::abv),
+        ("proof -> w, point by point", |a| {
+            Composition::Proof(2.0 * a)
+        }),
+        ("% vol at 15 °C -> w, point by point", |a| {
+            Composition::Abv {
+                abv: a,
+                t_ref: 15.0,
+            }
+        }),
+    ];
+    for (name, comp) in cases {
+        g.bench_function(name, |b| {
+            b.iter(|| {
+                for (o, &a) in out.iter_mut().zip(black_box(&abv_in)) {
+                    *o = m.mass_fraction(comp(a)).unwrap();
+                }
+                black_box(&out);
+            })
+        });
     }
     g.finish();
 }

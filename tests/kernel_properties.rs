@@ -275,6 +275,8 @@ fn exercise_everything(a: f64, b: f64, c: f64, d: f64) -> Result<(), TestCaseErr
     let _ = m.drho_dt(a, b);
     let _ = m.rho_dw(a, b);
     let _ = m.guess_w_from_density(a, b);
+    let _ = m.guess_w_from_abv(a, b);
+    let _ = solve::polish_increasing(|x: f64| (x * x * x + x, 3.0 * x * x + 1.0), a, b, c, d, 3);
     let _ = m.x_from_w(a);
     let _ = EthanolWater::eval(a, b);
     let _ = composition::x_from_w(a, b, c);
@@ -425,6 +427,55 @@ fn exercise_everything(a: f64, b: f64, c: f64, d: f64) -> Result<(), TestCaseErr
 }
 
 // ---- deterministic checks ---------------------------------------------------
+
+/// The mass fraction whose % vol at `t_ref` is `abv`, by the bracketed
+/// solve alone (no model guess), for checking the fast path against.
+fn w_from_abv_bracketed(m: &EthanolWater, abv: f64, t_ref: f64) -> f64 {
+    let rho1 = m.pure_density(0, t_ref).unwrap();
+    let f = |w: f64| {
+        let (r, dr) = m.rho_dw(w, t_ref);
+        (w * r, r + w * dr)
+    };
+    solve::solve_increasing(f, abv / 100.0 * rho1, 0.0, 1.0, 0.5, "test % vol").unwrap()
+}
+
+#[test]
+fn abv_guess_tables_are_close_and_the_solve_is_exact() {
+    let m = model();
+    for t_ref in [T_REF_C, T_PROOF_C] {
+        let (mut worst_guess, mut worst_solve) = (0.0f64, 0.0f64);
+        for i in 0..=20_000 {
+            let abv = f64::from(i) * 5e-3;
+            let exact = w_from_abv_bracketed(&m, abv, t_ref);
+            let guess = m.guess_w_from_abv(abv, t_ref).unwrap();
+            worst_guess = worst_guess.max((guess - exact).abs());
+            let w = m.mass_fraction(Composition::Abv { abv, t_ref }).unwrap();
+            worst_solve = worst_solve.max((w - exact).abs());
+        }
+        // Close enough that Newton settles in two steps (see `ABV_NS`).
+        assert!(
+            worst_guess <= 1e-7,
+            "guess at {t_ref} °C off by {worst_guess:e}"
+        );
+        assert!(
+            worst_solve <= 1e-12,
+            "solve at {t_ref} °C off by {worst_solve:e}"
+        );
+    }
+    // Other reference temperatures take the bracketed solve.
+    assert_eq!(m.guess_w_from_abv(50.0, 15.0), None);
+    let w = m
+        .mass_fraction(Composition::Abv {
+            abv: 50.0,
+            t_ref: 15.0,
+        })
+        .unwrap();
+    assert!((w - w_from_abv_bracketed(&m, 50.0, 15.0)).abs() <= 1e-12);
+    // The ends are exact.
+    assert_eq!(m.mass_fraction(Composition::abv(0.0)).unwrap(), 0.0);
+    assert_eq!(m.mass_fraction(Composition::abv(100.0)).unwrap(), 1.0);
+    assert_eq!(m.mass_fraction(Composition::Proof(200.0)).unwrap(), 1.0);
+}
 
 #[test]
 fn inverse_solve_to_1e_10_on_a_grid() {

@@ -7,7 +7,7 @@
 
 use super::error::{in_range, Result};
 use super::model::{Mixture, T_PROOF_C, T_REF_C};
-use super::solve::solve_increasing;
+use super::solve::{polish_increasing, solve_increasing_with_ends};
 
 /// A composition in one basis.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -105,18 +105,41 @@ pub fn dabv_dw<M: Mixture + ?Sized>(m: &M, w: f64, t_ref: f64) -> Result<f64> {
     Ok(100.0 * (r + w * dr) / rho1)
 }
 
+/// Newton steps tried from a model's close guess before the bracketed solve.
+const POLISH_STEPS: usize = 3;
+
 /// Mass fraction whose % vol at `t_ref` is `abv` (w ρ(w) is increasing in w
-/// for any physical mixture; the solve is bracketed regardless).
+/// for any physical mixture; the solve is bracketed regardless). With a
+/// close guess from the model ([`Mixture::guess_w_from_abv`]) plain Newton
+/// usually settles in two steps; otherwise, or if it does not, the
+/// bracketed solve runs.
 fn w_from_abv<M: Mixture + ?Sized>(m: &M, abv: f64, t_ref: f64) -> Result<f64> {
     let v = m.validity();
-    let rho1 = m.pure_density(0, t_ref)?;
-    let target = abv * rho1 / 100.0;
+    let t_ref = m.check_t(t_ref)?;
+    if v.w_max < 1.0 {
+        // No pure component 1: `pure_density` reports it.
+        m.pure_density(0, t_ref)?;
+    }
+    // Both pure densities in one go (closed forms where the model has them):
+    // ρ₁ for the target, ρ at w_min for the crude guess and the bracket.
+    let (rho_lo, rho1) = m.rho_at_ends(t_ref);
+    // abv/100 first, so that 100 % vol is ρ₁ exactly and returns w_max.
+    let target = abv / 100.0 * rho1;
+    let (fa, fb) = (v.w_min * rho_lo, v.w_max * rho1);
     let f = |w: f64| {
         let (r, dr) = m.rho_dw(w, t_ref);
         (w * r, r + w * dr)
     };
-    let guess = (abv / 100.0 * rho1 / m.rho(v.w_min.max(0.0), t_ref)).clamp(v.w_min, v.w_max);
-    solve_increasing(f, target, v.w_min, v.w_max, guess, "% vol")
+    if target > fa && target < fb {
+        if let Some(w) = m
+            .guess_w_from_abv(abv, t_ref)
+            .and_then(|g| polish_increasing(f, target, v.w_min, v.w_max, g, POLISH_STEPS))
+        {
+            return Ok(w);
+        }
+    }
+    let guess = (abv / 100.0 * rho1 / rho_lo).clamp(v.w_min, v.w_max);
+    solve_increasing_with_ends(f, target, v.w_min, v.w_max, fa, fb, guess, "% vol")
 }
 
 /// Converts a composition in any basis to mass fraction, checking ranges.

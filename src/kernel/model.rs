@@ -89,6 +89,14 @@ pub trait Mixture: Send + Sync {
         None
     }
 
+    /// A close first guess of w for the % vol solve (`abv` in 0–100 at
+    /// `t_ref` °C, both already checked); `None` lets the solver start from
+    /// a crude guess inside its bracket. A guess good to ~1e-6 lets the
+    /// solve skip the bracket and finish in two Newton steps.
+    fn guess_w_from_abv(&self, _abv: f64, _t_ref: f64) -> Option<f64> {
+        None
+    }
+
     // ---- checked access -------------------------------------------------
 
     /// Checks a mass fraction against the validity range.

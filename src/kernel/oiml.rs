@@ -13,7 +13,7 @@ use std::sync::OnceLock;
 
 use super::bulk;
 use super::error::{Error, Result};
-use super::model::{Component, Mixture, Validity};
+use super::model::{Component, Mixture, Validity, T_PROOF_C, T_REF_C};
 use super::solve;
 
 /// A_1 … A_12, kg/m³.
@@ -222,21 +222,9 @@ impl InverseTable {
         let u = ((t + 20.0) * (last_row / 60.0)).clamp(0.0, last_row);
         let i = (u as usize).min(TAB_NT - 2);
         let ft = u - i as f64;
-        let v = (s * (TAB_NS - 1) as f64).clamp(0.0, (TAB_NS - 1) as f64);
-        let j = (v as usize).min(TAB_NS - 2);
-        let f = v - j as f64;
         // Hermite in s within each row.
-        let (f2, f3) = (f * f, f * f * f);
-        let hs = [
-            2.0 * f3 - 3.0 * f2 + 1.0,
-            f3 - 2.0 * f2 + f,
-            -2.0 * f3 + 3.0 * f2,
-            f3 - f2,
-        ];
-        let row = |i: usize| {
-            let n = &self.rows[i][2 * j..2 * j + 4];
-            hs[0] * n[0] + hs[1] * n[1] + hs[2] * n[2] + hs[3] * n[3]
-        };
+        let (j, hs) = hermite_weights(s * (TAB_NS - 1) as f64, TAB_NS);
+        let row = |i: usize| hermite_apply(&self.rows[i], j, &hs);
         // Catmull–Rom in t over rows i−1 … i+2, one-sided at the edges.
         let (im, ip) = (i.saturating_sub(1), (i + 2).min(TAB_NT - 1));
         let (p0, p1, p2, p3) = (row(im), row(i), row(i + 1), row(ip));
@@ -248,6 +236,79 @@ impl InverseTable {
             + (-2.0 * g3 + 3.0 * g2) * p2
             + (g3 - g2) * m2
     }
+}
+
+/// The interval j (0 ≤ j ≤ n − 2) holding fractional node index `v`
+/// (clamped to 0…n − 1) of a row of `n` nodes, and the cubic Hermite
+/// weights there for (value j, spacing × slope j, value j + 1, spacing ×
+/// slope j + 1).
+#[inline(always)]
+fn hermite_weights(v: f64, n: usize) -> (usize, [f64; 4]) {
+    let last = (n - 1) as f64;
+    let v = v.clamp(0.0, last);
+    let j = (v as usize).min(n - 2);
+    let f = v - j as f64;
+    let (f2, f3) = (f * f, f * f * f);
+    (
+        j,
+        [
+            2.0 * f3 - 3.0 * f2 + 1.0,
+            f3 - 2.0 * f2 + f,
+            -2.0 * f3 + 3.0 * f2,
+            f3 - f2,
+        ],
+    )
+}
+
+/// The Hermite interpolant on interval `j` of a row stored as in
+/// [`InverseTable::rows`] (value at 2j, spacing × slope at 2j + 1).
+#[inline(always)]
+fn hermite_apply(row: &[f64], j: usize, hs: &[f64; 4]) -> f64 {
+    let n = &row[2 * j..2 * j + 4];
+    hs[0] * n[0] + hs[1] * n[1] + hs[2] * n[2] + hs[3] * n[3]
+}
+
+// ---- % vol guess tables -----------------------------------------------------
+//
+// The % vol solve (w ρ(w, t_ref) = (% vol/100) ρ(1, t_ref)) gets its first
+// guess from a table of w and dw/d(% vol) at evenly spaced % vol nodes for
+// each of the two usual reference temperatures, interpolated by cubic
+// Hermite like the rows of the density table. With 257 nodes the guess is
+// within ~1e-8 of the root (see the guess test), so one Newton step
+// reaches the root and a second confirms it. Other reference temperatures
+// get no guess and take the bracketed solve. Built once, on first use.
+
+/// % vol nodes over 0…100.
+const ABV_NS: usize = 257;
+/// The reference temperatures with a table: 20 °C (% vol) and 60 °F (proof).
+const ABV_T_REFS: [f64; 2] = [T_REF_C, T_PROOF_C];
+
+fn abv_tables() -> &'static [[f64; 2 * ABV_NS]; 2] {
+    static TABLES: OnceLock<[[f64; 2 * ABV_NS]; 2]> = OnceLock::new();
+    TABLES.get_or_init(|| ABV_T_REFS.map(build_abv_row))
+}
+
+fn build_abv_row(t: f64) -> [f64; 2 * ABV_NS] {
+    let h = 100.0 / (ABV_NS - 1) as f64;
+    let rho1 = EthanolWater::rho_w(1.0, t);
+    let f = |w: f64| {
+        let (r, dr) = EthanolWater::rho_dw_impl(w, t);
+        (w * r, r + w * dr)
+    };
+    let mut row = [0.0; 2 * ABV_NS];
+    let mut guess = 0.0;
+    for j in 0..ABV_NS {
+        let target = j as f64 * h / 100.0 * rho1;
+        // Cannot fail: the target lies between the ends, where the
+        // polynomial is finite.
+        let w = solve::solve_increasing(f, target, 0.0, 1.0, guess, "% vol table").unwrap_or(guess);
+        // d(% vol)/dw = 100 (ρ + w ∂ρ/∂w)/ρ₁.
+        let slope = h * rho1 / (100.0 * f(w).1);
+        row[2 * j] = w;
+        row[2 * j + 1] = slope;
+        guess = w + slope;
+    }
+    row
 }
 
 // ---- bulk density solve -----------------------------------------------------
@@ -512,6 +573,18 @@ impl Mixture for EthanolWater {
     /// points get the point solve's errors.
     fn w_from_density_slice(&self, rho: &[f64], t: &[f64], out: &mut [f64]) -> Result<()> {
         self.w_from_density_chunks(rho, t, out)
+    }
+
+    /// From the precomputed tables at 20 °C and 60 °F (notes at `ABV_NS` in
+    /// this file); `None` at any other reference temperature.
+    #[inline]
+    fn guess_w_from_abv(&self, abv: f64, t_ref: f64) -> Option<f64> {
+        let i = ABV_T_REFS.iter().position(|&t| t == t_ref)?;
+        if !abv.is_finite() {
+            return None;
+        }
+        let (j, hs) = hermite_weights(abv * ((ABV_NS - 1) as f64 / 100.0), ABV_NS);
+        Some(hermite_apply(&abv_tables()[i], j, &hs).clamp(0.0, 1.0))
     }
 
     /// From the precomputed table (notes at `TAB_NT` in this file): close

@@ -24,20 +24,85 @@ pub fn solve_increasing(
     guess: f64,
     what: &'static str,
 ) -> Result<f64> {
-    if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
-        return Err(Error::Invalid(format!(
-            "{what}: the bracket [{lo}, {hi}] is not a finite interval"
-        )));
-    }
-    let target = finite(what, target)?;
+    check_bracket(target, lo, hi, what)?;
     let (fa, _) = f(lo);
     let (fb, _) = f(hi);
     solve_in_bracket(f, target, lo, hi, fa, fb, guess, what)
 }
 
-/// [`solve_increasing`] with `f(lo)` and `f(hi)` already known (and the
-/// bracket and target already checked), so callers that computed them for
-/// their own checks do not pay for them twice.
+/// [`solve_increasing`] with `f(lo)` and `f(hi)` already known, so callers
+/// that have them from cheaper sources (closed forms for the pure
+/// components) do not evaluate `f` at the ends again.
+#[allow(clippy::too_many_arguments)]
+pub fn solve_increasing_with_ends(
+    f: impl Fn(f64) -> (f64, f64),
+    target: f64,
+    lo: f64,
+    hi: f64,
+    fa: f64,
+    fb: f64,
+    guess: f64,
+    what: &'static str,
+) -> Result<f64> {
+    check_bracket(target, lo, hi, what)?;
+    solve_in_bracket(f, target, lo, hi, fa, fb, guess, what)
+}
+
+/// The checks [`solve_increasing`] makes before solving: a finite bracket
+/// and a finite target.
+fn check_bracket(target: f64, lo: f64, hi: f64, what: &'static str) -> Result<()> {
+    if !(lo.is_finite() && hi.is_finite() && lo <= hi) {
+        return Err(Error::Invalid(format!(
+            "{what}: the bracket [{lo}, {hi}] is not a finite interval"
+        )));
+    }
+    finite(what, target)?;
+    Ok(())
+}
+
+/// Plain Newton for an increasing `f(w) = target` from a first guess that
+/// is already close (a model's precomputed table), with no bracket and so
+/// no evaluations at its ends. `Some(w)` once a step falls below
+/// [`W_TOL`] (the bracketed solve's own stopping rule) with every iterate
+/// inside `[lo, hi]`; `None` — the caller then runs the bracketed solve — if
+/// an iterate leaves the interval, the slope is not positive, a value is
+/// not finite, or `max_steps` steps do not settle.
+pub fn polish_increasing(
+    f: impl Fn(f64) -> (f64, f64),
+    target: f64,
+    lo: f64,
+    hi: f64,
+    guess: f64,
+    max_steps: usize,
+) -> Option<f64> {
+    if !(guess >= lo && guess <= hi) {
+        return None;
+    }
+    let mut w = guess;
+    for _ in 0..max_steps {
+        let (fw, dfw) = f(w);
+        let g = fw - target;
+        if g == 0.0 {
+            return Some(w);
+        }
+        if !(g.is_finite() && dfw > 0.0 && dfw.is_finite()) {
+            return None;
+        }
+        let next = w - g / dfw;
+        if !(next >= lo && next <= hi) {
+            return None;
+        }
+        let step = (next - w).abs();
+        w = next;
+        if step < W_TOL {
+            return Some(w);
+        }
+    }
+    None
+}
+
+/// The safeguarded Newton iteration proper, with `f(lo)` and `f(hi)`
+/// already known (and the bracket and target already checked).
 #[allow(clippy::too_many_arguments)]
 fn solve_in_bracket(
     f: impl Fn(f64) -> (f64, f64),
