@@ -2,7 +2,6 @@
 -- the fictional Fenwick Reach Solvents QA lab, and writes the report, the
 -- saved model and three figures.
 --
---   mkdir -p out
 --   meniscus run scripts/fit_solvent.lua [data.csv] [output directory]
 --
 -- Defaults: demo-data/solvent_densities.csv and out/. Writes
@@ -11,6 +10,7 @@
 
 local data = arg[1] or "demo-data/solvent_densities.csv"
 local out = arg[2] or "out"
+files.mkdir(out)                     -- only under the working directory or --allow-path
 
 local m = mixture.fit{
   data = data,
@@ -41,7 +41,7 @@ print(report)
 local function try_write(what, f)
   local ok, err = pcall(f)
   if not ok then
-    error(string.format("cannot write %s (does the directory '%s' exist?): %s", what, out, err), 0)
+    error(string.format("cannot write %s in '%s': %s", what, out, err), 0)
   end
 end
 
