@@ -1113,8 +1113,17 @@ fn the_solvent_demo_script_runs_end_to_end() {
         .stdin(std::process::Stdio::null())
         .output()
         .unwrap();
-    assert_eq!(o.status.code(), Some(0), "{}", String::from_utf8_lossy(&o.stderr));
-    for f in ["solvent_report.txt", "solvent_model.json", "solvent_pmv.svg"] {
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    for f in [
+        "solvent_report.txt",
+        "solvent_model.json",
+        "solvent_pmv.svg",
+    ] {
         assert!(o_dir.join(f).is_file(), "{f} not written");
     }
 }
