@@ -320,3 +320,104 @@ fn broken_pipe_on_stdout_is_not_an_error() {
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
     assert_eq!(stderr(&o), "");
 }
+
+#[test]
+fn debug_loadlib_and_bytecode_are_refused() {
+    for (chunk, says) in [
+        ("return debug.traceback()", "debug"),
+        ("return package.loadlib('libc.so.6', 'system')", "package"),
+        ("return string.dump(print)", "dump"),
+        // A binary chunk is refused by `load` itself; asserting on the
+        // refusal makes the chunk fail the way a script would see it.
+        (
+            "assert(load('\\27Lua\\84\\0'))",
+            "binary chunks are not allowed",
+        ),
+    ] {
+        let o = run(&["eval", chunk]);
+        assert_eq!(o.status.code(), Some(1), "{chunk}");
+        let err = stderr(&o);
+        assert!(err.starts_with("error: eval:1: "), "{chunk}: {err}");
+        assert!(err.contains(says), "{chunk}: {err}");
+    }
+}
+
+#[test]
+fn timeout_reaches_coroutines() {
+    let (code, err, took) = run_with_deadline(
+        &[
+            "--timeout",
+            "1",
+            "eval",
+            "local co = coroutine.create(function() while true do end end) \
+             return coroutine.resume(co)",
+        ],
+        Duration::from_secs(20),
+    );
+    assert_eq!(code, Some(1), "{err}");
+    assert!(err.contains("time limit"), "{err}");
+    assert!(took < Duration::from_secs(10), "took {took:?}");
+}
+
+#[test]
+fn deep_recursion_is_a_clear_error() {
+    let o = run(&[
+        "eval",
+        "local function f(n) return f(n + 1) + 1 end return f(1)",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stderr(&o).contains("stack overflow"), "{}", stderr(&o));
+}
+
+#[test]
+fn files_outside_allowed_dirs_are_refused_and_nothing_is_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let outside = tempfile::tempdir().unwrap();
+    let target = outside.path().join("table.csv");
+    let reader = script(
+        dir.path(),
+        "read.lua",
+        "local s = files.read('/etc/passwd')\n",
+    );
+    let o = meniscus()
+        .current_dir(dir.path())
+        .args(["run", reader.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).contains("outside the working directory"),
+        "{}",
+        stderr(&o)
+    );
+    let writer = script(
+        dir.path(),
+        "write.lua",
+        &format!(
+            "files.write_csv({:?}, {{'abv'}}, {{{{40}}}})\n",
+            target.to_str().unwrap()
+        ),
+    );
+    let o = meniscus()
+        .current_dir(dir.path())
+        .args(["run", writer.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(stderr(&o).contains("write.lua:1:"), "{}", stderr(&o));
+    assert!(!target.exists(), "a refused write left a file");
+    assert_eq!(std::fs::read_dir(outside.path()).unwrap().count(), 0);
+    // The same write succeeds once the directory is allowed.
+    let o = meniscus()
+        .current_dir(dir.path())
+        .args([
+            "--allow-path",
+            outside.path().to_str().unwrap(),
+            "run",
+            writer.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(target.exists());
+}
