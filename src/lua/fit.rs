@@ -1217,15 +1217,7 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
     tag(lua, Value::Function(fit_fn), "mixture.fit")?;
     tag(lua, Value::Function(load_fn), "mixture.load")?;
 
-    let sample = mixture_userdata(lua, Arc::new(kernel::EthanolWater::new()))?;
-    let get: mlua::Function = lua
-        .load("local u, k = ...; return u[k]")
-        .set_name("=(meniscus)")
-        .into_function()?;
-    for name in FIT_METHODS {
-        let f: Value = get.call((sample.clone(), name))?;
-        tag(lua, f, &format!("mixture:{name}"))?;
-    }
+    super::mixture::tag_methods(lua, &FIT_METHODS)?;
 
     if let Some(e) = entry(lua, "mixture") {
         add_help(

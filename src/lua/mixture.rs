@@ -43,6 +43,22 @@ pub fn mixture_arg(v: &Value, func: &str, arg: &str) -> mlua::Result<Arc<dyn Mix
     }
 }
 
+/// Tags mixture methods `mixture:<name>` for help and completion. Every
+/// mixture userdata returns the same function values from its method
+/// table, so tagging those of one sample tags them for all.
+pub fn tag_methods(lua: &Lua, names: &[&str]) -> mlua::Result<()> {
+    let sample = mixture_userdata(lua, Arc::new(EthanolWater::new()))?;
+    let get: mlua::Function = lua
+        .load("local u, k = ...; return u[k]")
+        .set_name("=(meniscus)")
+        .into_function()?;
+    for name in names {
+        let f: Value = get.call((sample.clone(), *name))?;
+        tag(lua, f, &format!("mixture:{name}"))?;
+    }
+    Ok(())
+}
+
 /// Cautions shown with every calculation that may feed a legal decision.
 pub const CAUTIONS: &str = "Results are calculations from a model, not a certified measurement.\n\
 For excise, labelling and other legal declarations use the officially\n\
@@ -653,17 +669,7 @@ pub fn register(lua: &Lua) -> mlua::Result<()> {
     tag(lua, Value::Table(ns), "mixture")?;
     tag(lua, Value::Function(ew), "mixture.ethanol_water")?;
 
-    // Tag the method functions (the same function values every mixture
-    // userdata returns from its method table).
-    let sample = mixture_userdata(lua, Arc::new(EthanolWater::new()))?;
-    let get: mlua::Function = lua
-        .load("local u, k = ...; return u[k]")
-        .set_name("=(meniscus)")
-        .into_function()?;
-    for name in METHODS {
-        let f: Value = get.call((sample.clone(), name))?;
-        tag(lua, f, &format!("mixture:{name}"))?;
-    }
+    tag_methods(lua, &METHODS)?;
 
     for (name, sig, doc, keys) in help_entries() {
         add_help(lua, name, sig, &doc)?;

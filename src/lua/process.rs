@@ -12,7 +12,7 @@ use mlua::{Lua, Table, UserDataMethods, Value};
 
 use super::convert::{composition, describe_value, number, opt_number, Fields, Numbers};
 use super::errors::runtime;
-use super::help::{add_help, add_keys, tag};
+use super::help::{add_help, add_keys};
 use super::mixture::{MixtureUd, CAUTIONS};
 use crate::kernel::process::{
     self, Amount, Lot, PlanLot, PlanTarget, PlanWater, Weighing, MAX_PLAN_LOTS,
@@ -508,16 +508,7 @@ equation in the last digits; where they are prescribed, they take precedence.";
 /// Registers the help of the process methods and tags them, so that
 /// `help(m.reduce)` and completion find them.
 pub fn register(lua: &Lua) -> mlua::Result<()> {
-    let sample =
-        super::mixture::mixture_userdata(lua, std::sync::Arc::new(kernel::EthanolWater::new()))?;
-    let get: mlua::Function = lua
-        .load("local u, k = ...; return u[k]")
-        .set_name("=(meniscus)")
-        .into_function()?;
-    for name in METHODS {
-        let f: Value = get.call((sample.clone(), name))?;
-        tag(lua, f, &format!("mixture:{name}"))?;
-    }
+    super::mixture::tag_methods(lua, &METHODS)?;
     for (name, sig, doc, keys) in help_entries() {
         add_help(lua, name, sig, &doc)?;
         add_keys(lua, name, keys)?;
